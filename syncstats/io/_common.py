@@ -1,0 +1,203 @@
+"""Shared pieces of the readers: the intermediate source, path checks, option checks.
+
+Every reader turns its file into a :class:`_Source` (signals at their native rates,
+plus where the data are continuous); :mod:`syncstats.io._grid` then brings a source to
+one sampling grid and cuts it at gaps.
+"""
+from __future__ import annotations
+
+import math
+import os
+from dataclasses import dataclass, field
+from fractions import Fraction
+from pathlib import Path
+from typing import Iterable, Sequence
+
+import numpy as np
+
+from syncstats._errors import SyncstatsInputError
+
+__all__: list[str] = []
+
+#: Largest denominator used when a floating-point sampling rate is turned into a
+#: fraction for the common-grid arithmetic (rates are exact to 1e-6 Hz or better).
+_RATE_DENOMINATOR = 1_000_000
+
+
+@dataclass(frozen=True)
+class _Block:
+    """A run of data that is continuous in time.
+
+    ``data_start`` / ``data_stop`` are positions in the concatenated data, in seconds
+    (exact fractions, so that every signal's sample index is ``data_time * rate``);
+    ``onset_s`` is the real time of the first sample of the run, in seconds from the
+    recording's time origin.
+    """
+
+    data_start: Fraction
+    data_stop: Fraction
+    onset_s: float
+
+
+@dataclass
+class _Source:
+    """What a format loader hands to the common grid step (mutable, private)."""
+
+    path: Path
+    name: str
+    kind: str
+    signals: dict[str, np.ndarray]
+    rates: dict[str, Fraction]
+    units: dict[str, str] = field(default_factory=dict)
+    start_time: str | None = None
+    events: dict[str, np.ndarray] = field(default_factory=dict)
+    blocks: list[_Block] | None = None
+    notes: list[str] = field(default_factory=list)
+    #: Real time (s) of the first sample in the file's own clock; external event
+    #: files are read in that clock and shifted by it.
+    time_origin_s: float = 0.0
+    #: Word for where the continuity breaks come from, used in gap messages.
+    break_source: str = "data"
+
+
+def _library_notes(caught, who: str) -> list[str]:
+    """Warnings a file library raised while reading, as notes (its deprecations left out)."""
+    skip = (DeprecationWarning, PendingDeprecationWarning, FutureWarning)
+    out = []
+    for w in caught:
+        if issubclass(w.category, skip):
+            continue
+        text = " ".join(str(w.message).split())
+        note = f"{who} said: {text}"
+        if note not in out:
+            out.append(note)
+    return out
+
+
+def _rate_fraction(rate: float | Fraction) -> Fraction:
+    """Exact (or 1e-6-close) fraction for a sampling rate in Hz."""
+    if isinstance(rate, Fraction):
+        return rate
+    return Fraction(rate).limit_denominator(_RATE_DENOMINATOR)
+
+
+def _fmt_hz(rate: float | Fraction) -> str:
+    return f"{float(rate):g} Hz"
+
+
+def _check_file(path: str | os.PathLike, what: str = "file") -> Path:
+    """Resolve ``path`` and check that it is an existing, non-empty regular file."""
+    try:
+        p = Path(os.fspath(path)).expanduser()
+    except TypeError as err:
+        raise SyncstatsInputError(
+            f"The path argument {path!r} is not a file path; pass a str or pathlib.Path."
+        ) from err
+    if not p.exists():
+        raise SyncstatsInputError(
+            f"The {what} '{p}' does not exist; check the path and the working directory."
+        )
+    if not p.is_file():
+        raise SyncstatsInputError(
+            f"The {what} '{p}' is not a regular file (is it a folder?); pass the path "
+            "of the file itself."
+        )
+    if p.stat().st_size == 0:
+        raise SyncstatsInputError(
+            f"The {what} '{p}' is empty (0 bytes); check that it was written completely."
+        )
+    return p
+
+
+def _check_fs(fs: float | None, param: str = "fs") -> float | None:
+    """Validate a sampling rate option: None or a finite number > 0."""
+    if fs is None:
+        return None
+    try:
+        value = float(fs)
+    except (TypeError, ValueError) as err:
+        raise SyncstatsInputError(
+            f"Parameter {param}={fs!r} is not a number; pass the sampling rate in Hz "
+            "as a positive number."
+        ) from err
+    if not math.isfinite(value) or value <= 0:
+        raise SyncstatsInputError(
+            f"Parameter {param}={fs!r} is not a sampling rate; pass a finite number of "
+            "Hz greater than 0."
+        )
+    return value
+
+
+def _check_name_list(values: str | Sequence[str] | None, param: str) -> list[str] | None:
+    """Accept None, one name or a sequence of names (no duplicates)."""
+    if values is None:
+        return None
+    if isinstance(values, str):
+        values = [values]
+    try:
+        names = [str(v) for v in values]
+    except TypeError as err:
+        raise SyncstatsInputError(
+            f"Parameter {param}={values!r} is not a name or a list of names; pass e.g. "
+            f"{param}=['ecg', 'resp']."
+        ) from err
+    if not names:
+        raise SyncstatsInputError(
+            f"Parameter {param} is an empty list; pass at least one name or leave it as None."
+        )
+    dupes = sorted({n for n in names if names.count(n) > 1})
+    if dupes:
+        raise SyncstatsInputError(
+            f"Parameter {param} names {', '.join(map(repr, dupes))} more than once; list "
+            "each name once."
+        )
+    return names
+
+
+def _select(available: Sequence[str], wanted: Sequence[str] | None, path: Path,
+            what: str = "signal") -> list[str]:
+    """Pick ``wanted`` names (in the user's order) from ``available``, or all of them."""
+    if wanted is None:
+        return list(available)
+    missing = [w for w in wanted if w not in available]
+    if missing:
+        raise SyncstatsInputError(
+            f"File '{path}' has no {what} named {', '.join(map(repr, missing))}; the "
+            f"available {what}s are {', '.join(map(repr, available)) or '(none)'}, pass "
+            f"some of those to signals=."
+        )
+    return list(wanted)
+
+
+def _unique_labels(labels: Iterable[str]) -> tuple[list[str], list[str]]:
+    """Make labels unique by appending " (2)", " (3)", ...; return labels and notes."""
+    out: list[str] = []
+    notes: list[str] = []
+    seen: dict[str, int] = {}
+    for raw in labels:
+        label = raw.strip() or "signal"
+        if label in seen:
+            seen[label] += 1
+            new = f"{label} ({seen[label]})"
+            while new in seen:
+                seen[label] += 1
+                new = f"{label} ({seen[label]})"
+            notes.append(f"signal label {label!r} occurs more than once; renamed a copy to {new!r}")
+            seen[new] = 1
+            label = new
+        else:
+            seen[label] = 1
+        out.append(label)
+    return out, notes
+
+
+def _fraction_gcd(values: Iterable[Fraction]) -> Fraction:
+    """Greatest common divisor of positive rationals (largest g with v/g integer for all v)."""
+    vals = list(values)
+    den = 1
+    for v in vals:
+        den = math.lcm(den, v.denominator)
+    num = 0
+    for v in vals:
+        num = math.gcd(num, int(v * den))
+    return Fraction(num, den)
