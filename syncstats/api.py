@@ -26,7 +26,7 @@ from .prep import _check_band, auto_band, spectral_peak
 from .results import ResultData, finalize_table
 from .run import batch_bounds, map_batches
 
-__all__ = ["analyze", "AnalysisResult"]
+__all__ = ["analyze", "AnalysisResult", "combine_results"]
 
 SURROGATES = tuple(SURROGATE_METHODS)
 CI_METHODS = ("percentile", "bca", "basic")
@@ -778,3 +778,45 @@ def _version():
         return version("syncstats")
     except Exception:  # pragma: no cover
         return "0+unknown"
+
+
+def combine_results(results) -> AnalysisResult:
+    """One result from the analyses of several recordings (or gap-free segments).
+
+    Tables and diagnostics are stacked (diagnostics get a ``recording`` column); each
+    recording keeps its own correction family. Figures data (phase differences, phases,
+    events) come from the longest recording, which the notes name.
+    """
+    results = list(results)
+    if not results:
+        raise SyncstatsInputError("no recordings to combine; check the input file.")
+    tables, diags, nulls_, offset = [], [], {}, 0
+    for r in results:
+        rec = r.table["recording"].iloc[0] if len(r.table) else ""
+        tables.append(r.table)
+        d = r.diagnostics.copy()
+        d.insert(0, "recording", rec)
+        diags.append(d)
+        for k, v in r.null_distributions.items():
+            nulls_[k + offset] = v
+        offset += len(r.table)
+    longest = max(results, key=lambda r: 0 if r.time_s is None else len(r.time_s))
+    rec_long = longest.table["recording"].iloc[0] if len(longest.table) else ""
+    notes = list(dict.fromkeys(sum((r.notes for r in results), [])))
+    notes.append(f"{len(results)} recordings analysed separately; figures show '{rec_long}', the longest")
+    params = dict(longest.params)
+    params["recordings"] = [r.table["recording"].iloc[0] if len(r.table) else "" for r in results]
+    params["started_at"] = min(r.params["started_at"] for r in results)
+    params["finished_at"] = max(r.params["finished_at"] for r in results)
+    return AnalysisResult(
+        table=finalize_table(pd.concat(tables, ignore_index=True).to_dict("records")),
+        diagnostics=pd.concat(diags, ignore_index=True),
+        params=params,
+        null_distributions=nulls_,
+        phase_differences=longest.phase_differences,
+        phases=longest.phases,
+        time_s=longest.time_s,
+        events=longest.events,
+        notes=notes,
+        inputs=sorted({p for r in results for p in r.inputs}),
+    )
