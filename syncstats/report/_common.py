@@ -1,0 +1,344 @@
+"""Shared vocabulary of the report: display names, number formats, per-pair summaries.
+
+Nothing here computes a statistic: rows of the result table are grouped, sorted and put
+into words, exactly as the analysis wrote them.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+__all__: list[str] = []
+
+MEASURE_NAMES = {
+    "plv": "PLV",
+    "ppc": "PPC",
+    "entropy_index": "entropy index",
+    "conditional_index": "conditional-probability index",
+    "order_parameter": "order parameter",
+}
+
+SURROGATE_NAMES = {
+    "fourier": "Fourier phase-randomised",
+    "aaft": "AAFT",
+    "iaaft": "IAAFT",
+    "multivariate_fourier": "multivariate Fourier",
+    "time_shift": "time-shifted",
+    "twin": "twin",
+    "trial_shuffle": "trial-shuffled",
+    "interval_shuffle": "interval-shuffled",
+}
+
+CORRECTION_NAMES = {
+    "fdr_bh": "Benjamini–Hochberg false discovery rate",
+    "fdr_by": "Benjamini–Yekutieli false discovery rate",
+    "holm": "Holm step-down",
+    "bonferroni": "Bonferroni",
+    "max_stat": "max-statistic family-wise",
+    "none": "no",
+    "": "no",
+}
+
+
+def measure_name(m) -> str:
+    return MEASURE_NAMES.get(str(m), str(m))
+
+
+def surrogate_name(s) -> str:
+    return SURROGATE_NAMES.get(str(s), str(s))
+
+
+def correction_name(c) -> str:
+    return CORRECTION_NAMES.get(str(c), str(c))
+
+
+def is_missing(x) -> bool:
+    if x is None or x is pd.NA:
+        return True
+    try:
+        return bool(pd.isna(x))
+    except (TypeError, ValueError):
+        return False
+
+
+def fmt_num(x, digits: int = 2) -> str:
+    """A value for reading: fixed decimals, '—' when missing."""
+    if is_missing(x):
+        return "—"
+    x = float(x)
+    if not math.isfinite(x):
+        return "∞" if x > 0 else ("−∞" if x < 0 else "—")
+    if x != 0 and abs(x) < 10 ** (-digits):
+        if abs(x) >= 1e-4:
+            return f"{x:.{digits + 2}f}".rstrip("0").replace("-", "−")
+        return f"{x:.1e}".replace("-", "−")
+    return f"{x:.{digits}f}".replace("-", "−")
+
+
+def fmt_p(p) -> str:
+    """A p-value for reading (never rounded down to 0)."""
+    if is_missing(p):
+        return "—"
+    p = float(p)
+    if p >= 0.1:
+        return f"{p:.2f}"
+    if p >= 0.001:
+        return f"{p:.3f}"
+    if p >= 0.0001:
+        return f"{p:.4f}"
+    return f"{p:.1e}"
+
+
+def fmt_level(level) -> str:
+    """Confidence level as a percentage ('95')."""
+    if is_missing(level):
+        return ""
+    level = float(level)
+    if level <= 1:
+        level *= 100
+    return f"{level:g}"
+
+
+def ratio_words(a: str, b: str, p: int, q: int) -> str:
+    """The ratio convention in words: A makes p cycles while B makes q."""
+    cyc = lambda n: "cycle" if n == 1 else "cycles"  # noqa: E731
+    return f"{a} makes {p} {cyc(p)} while {b} makes {q}"
+
+
+def _truthy(x) -> bool:
+    return (not is_missing(x)) and bool(x)
+
+
+def _group_name(label: str) -> str:
+    return label if "group" in label.lower() else f"group {label}"
+
+
+@dataclass
+class PairSummary:
+    """The rows of one pair (or one group) and the row that best states the finding."""
+
+    recording: str
+    signal_a: str
+    signal_b: str
+    rows: pd.DataFrame
+    whole: pd.DataFrame  # rows spanning the whole analysed record
+    windows: pd.DataFrame  # rows of windows inside the record
+    headline: pd.Series | None
+    status: str  # "locked", "inconclusive", "none", "untested", "failed"
+    also_locked: list = field(default_factory=list)  # other ratios with evidence
+    alpha: float | None = None
+
+    @property
+    def is_group(self) -> bool:
+        return self.signal_b == ""
+
+    @property
+    def label(self) -> str:
+        base = _group_name(self.signal_a) if self.is_group else f"{self.signal_a} and {self.signal_b}"
+        return f"{self.recording} · {base}" if self.recording else base
+
+    @property
+    def key(self) -> tuple:
+        return (self.recording, self.signal_a, self.signal_b)
+
+
+def _split_windows(rows: pd.DataFrame) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Separate whole-record rows from window rows, per (ratio, measure)."""
+    whole_idx, win_idx = [], []
+    for _, g in rows.groupby(["ratio", "measure"], sort=False, dropna=False):
+        if len(g) == 1:
+            whole_idx.extend(g.index)
+            continue
+        start = g["window_start_s"].to_numpy(float)
+        end = g["window_end_s"].to_numpy(float)
+        span = end - start
+        if not (np.isfinite(span).all() and len(span) > 1):
+            win_idx.extend(g.index)  # spans unknown: treat every row as a window
+            continue
+        i = int(np.argmax(span))
+        others = np.delete(span, i)
+        covers = start[i] <= start.min() and end[i] >= end.max()
+        if covers and span[i] > 1.5 * others.max():
+            whole_idx.append(g.index[i])
+            win_idx.extend(np.delete(g.index.to_numpy(), i))
+        else:
+            win_idx.extend(g.index)
+    return rows.loc[sorted(whole_idx)], rows.loc[sorted(win_idx)]
+
+
+def _rank_key(rows: pd.DataFrame, measure_order: list) -> pd.DataFrame:
+    sig = rows["significant"].map(_truthy)
+    order = {m: i for i, m in enumerate(measure_order)}
+    key = pd.DataFrame(
+        {
+            "not_sig": ~sig.astype(bool),
+            "padj": rows["p_adjusted"].astype(float).fillna(np.inf),
+            "praw": rows["p_value"].astype(float).fillna(np.inf),
+            "mrank": rows["measure"].map(lambda m: order.get(m, len(order))),
+            "negz": -rows["z"].astype(float).fillna(-np.inf),
+            "negv": -rows["value"].astype(float).fillna(-np.inf),
+        },
+        index=rows.index,
+    )
+    return key
+
+
+def best_row(rows: pd.DataFrame, measure_order: list):
+    """Significant first, then smallest corrected p, smallest raw p, preferred measure,
+    largest z, largest value."""
+    if rows.empty:
+        return None
+    key = _rank_key(rows, measure_order)
+    key = key.sort_values(["not_sig", "padj", "praw", "mrank", "negz", "negv"], kind="stable")
+    return rows.loc[key.index[0]]
+
+
+def measure_order(table: pd.DataFrame, params: dict) -> list:
+    ms = params.get("measures") if isinstance(params, dict) else None
+    if isinstance(ms, str):
+        ms = [ms]
+    out = [str(m) for m in (ms or [])]
+    for m in table["measure"].tolist():
+        if m not in out:
+            out.append(m)
+    return out
+
+
+def _at_resolution_floor(row) -> bool:
+    """True when no surrogate reached the observed value (p = 1/(1 + S), the smallest
+    p-value S surrogates can give) and yet the row is not significant: the test could not
+    resolve the question with this many surrogates."""
+    n, p = row["n_surrogates"], row["p_value"]
+    if is_missing(n) or is_missing(p) or int(n) <= 0:
+        return False
+    return float(p) <= (1.0 + 1e-9) / (1 + int(n))
+
+
+def summarize_pairs(table: pd.DataFrame, params: dict) -> list[PairSummary]:
+    """One summary per (recording, signal_a, signal_b), in table order."""
+    if table is None or table.empty:
+        return []
+    morder = measure_order(table, params)
+    out = []
+    groups = table.groupby(["recording", "signal_a", "signal_b"], sort=False, dropna=False)
+    for (rec, a, b), rows in groups:
+        whole, windows = _split_windows(rows)
+        cand = whole if not whole.empty else windows
+        valid = cand[cand["value"].notna()]
+        if valid.empty:
+            head, status = None, "failed"
+        else:
+            head = best_row(valid, morder)
+            tested = valid["p_adjusted"].notna().any() or valid["p_value"].notna().any()
+            if not tested:
+                status = "untested"
+            else:
+                status = "locked" if _truthy(head["significant"]) else "none"
+            if status == "none" and _at_resolution_floor(head):
+                status = "inconclusive"
+        also = []
+        if status == "locked":
+            sig = cand[cand["significant"].map(_truthy)]
+            also = [r for r in dict.fromkeys(sig["ratio"].tolist()) if r != head["ratio"]]
+        alpha = params.get("alpha") if isinstance(params, dict) else None
+        out.append(
+            PairSummary(str(rec), str(a), str(b), rows, whole, windows, head, status, also,
+                        None if alpha is None else float(alpha))
+        )
+    return out
+
+
+def evidence_order(summaries: list[PairSummary]) -> list[PairSummary]:
+    """Pairs with the strongest evidence first (for choosing which get figures)."""
+    rank = {"locked": 0, "inconclusive": 1, "none": 2, "untested": 3, "failed": 4}
+
+    def key(s: PairSummary):
+        h = s.headline
+        padj = float(h["p_adjusted"]) if h is not None and not is_missing(h["p_adjusted"]) else np.inf
+        val = float(h["value"]) if h is not None and not is_missing(h["value"]) else -np.inf
+        return (rank[s.status], padj, -val)
+
+    return sorted(summaries, key=key)
+
+
+def _stat_clause(row: pd.Series, *, at: str = "") -> str:
+    parts = [f"{measure_name(row['measure'])} {fmt_num(row['value'])}{at}"]
+    if not is_missing(row["ci_low"]) and not is_missing(row["ci_high"]):
+        lvl = fmt_level(row["ci_level"])
+        parts.append(f"{lvl + '% ' if lvl else ''}CI {fmt_num(row['ci_low'])} to {fmt_num(row['ci_high'])}")
+    padj = row["p_adjusted"]
+    corr = str(row["correction"])
+    if not is_missing(padj):
+        if corr in ("", "none"):
+            ptxt = f"p = {fmt_p(padj)} (not corrected)"
+        else:
+            ptxt = f"corrected p = {fmt_p(padj)}"
+    elif not is_missing(row["p_value"]):
+        ptxt = f"p = {fmt_p(row['p_value'])} (not corrected)"
+    else:
+        ptxt = ""
+    if ptxt:
+        n = int(row["n_surrogates"]) if not is_missing(row["n_surrogates"]) else 0
+        ptxt += f" against {n} {surrogate_name(row['surrogate'])} surrogates"
+        parts.append(ptxt)
+    return ", ".join(parts)
+
+
+def verdict(s: PairSummary) -> tuple[str, str, str]:
+    """(short status label, who, finding) for a pair; the sentence is ``who + ": " + finding``.
+
+    Plain text, not escaped.
+    """
+    h = s.headline
+    if s.is_group:
+        who = _group_name(s.signal_a)
+        ratio_txt = ""
+    else:
+        who = f"{s.signal_a} and {s.signal_b}"
+        ratio_txt = ""
+        if h is not None:
+            ratio_txt = f"{h['ratio']} ({ratio_words(s.signal_a, s.signal_b, int(h['p']), int(h['q']))})"
+    if s.recording:
+        who = f"{s.recording}, {who}"
+    if s.status == "failed" or h is None:
+        return "not computed", who, "no value could be computed (see the warnings below)."
+    win_txt = ""
+    if s.whole.empty and not s.windows.empty:
+        w = s.windows[s.windows["ratio"] == h["ratio"]]
+        w = w[w["measure"] == h["measure"]]
+        n_sig = int(w["significant"].map(_truthy).sum())
+        if s.status == "none":
+            n_win = s.windows[["window_start_s", "window_end_s"]].drop_duplicates().shape[0]
+            win_txt = f" in any of {n_win} windows"
+        elif s.status == "untested":
+            win_txt = f" in the strongest of {len(w)} windows ({fmt_num(h['window_start_s'], 0)}–{fmt_num(h['window_end_s'], 0)} s)"
+        else:
+            win_txt = f" in {n_sig} of {len(w)} windows (strongest at {fmt_num(h['window_start_s'], 0)}–{fmt_num(h['window_end_s'], 0)} s)"
+    at = f" at {ratio_txt}" if ratio_txt else ""
+    if s.status == "locked":
+        also = f"; also at {', '.join(s.also_locked)}" if s.also_locked else ""
+        return "phase-locked", who, f"phase-locked{at}{win_txt} — {_stat_clause(h)}{also}."
+    if s.status == "inconclusive":
+        n = int(h["n_surrogates"])
+        a_txt = f" α = {s.alpha:g}" if s.alpha is not None else " the chosen level"
+        return "inconclusive", who, (
+            f"inconclusive{at}{win_txt} — {measure_name(h['measure'])} {fmt_num(h['value'])} was "
+            f"above all {n} {surrogate_name(h['surrogate'])} surrogates (p = {fmt_p(h['p_value'])}, "
+            f"corrected p = {fmt_p(h['p_adjusted'])}), but that is not below{a_txt}, and {n} "
+            "surrogates cannot give a smaller p-value; run again with more surrogates."
+        )
+    if s.status == "none":
+        ratios = list(dict.fromkeys(s.rows["ratio"].tolist()))
+        tested = f" at the ratio{'s' if len(ratios) > 1 else ''} tested ({', '.join(ratios)})" if ratios and ratios != [""] else ""
+        at_r = f" at {h['ratio']}" if ratio_txt and len(ratios) > 1 else ""
+        clause = _stat_clause(h, at=at_r)
+        return "no evidence", who, f"no evidence of locking{tested}{win_txt} — strongest: {clause}."
+    return (
+        "not tested",
+        who,
+        f"{measure_name(h['measure'])} {fmt_num(h['value'])}{at}{win_txt}; no test was "
+        "made (no surrogates were drawn), so this value alone cannot show locking.",
+    )

@@ -1,0 +1,442 @@
+"""Figures of the report, drawn with matplotlib's Agg renderer and embedded as PNG data URIs.
+
+Figures are made with the object API (``Figure`` + ``FigureCanvasAgg``), never through
+pyplot: rendering is headless whatever backend the user's session has, and the report
+does not switch that backend (``matplotlib.use("Agg")`` would, e.g. in a notebook).
+
+Every figure draws what the result holds — phase differences, null distributions, table
+rows — and computes no statistic. Histograms and interpolation of a stored phase at
+stored event times are the only arithmetic, and both are for drawing.
+
+To add a figure: write ``_panel_<name>(ax, summary, result, ...) -> str | None`` that
+draws into ``ax`` and returns a one-line caption (or ``None`` when it has nothing to
+show and should be skipped), then list it in ``_PAIR_PANELS``.
+"""
+from __future__ import annotations
+
+import base64
+import io
+
+import matplotlib
+import numpy as np
+import pandas as pd
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+from PIL import Image  # Pillow: a required dependency of matplotlib
+
+from ._common import (
+    PairSummary,
+    fmt_num,
+    is_missing,
+    measure_name,
+    surrogate_name,
+)
+
+__all__: list[str] = []
+
+#: our palette (also used by the page's CSS)
+PALETTE = {
+    "ink": "#23303b",
+    "muted": "#6b7784",
+    "paper": "#ffffff",
+    "data": "#1e6f6a",  # deep teal: the data
+    "data_soft": "#bcdad6",
+    "observed": "#d4872a",  # amber: the observed value
+    "null": "#9aa6b2",  # slate: what chance gives
+    "null_soft": "#e3e8ed",
+    "alert": "#b0452f",
+}
+
+_RC = {
+    "font.family": "DejaVu Sans",
+    "font.size": 8.5,
+    "axes.titlesize": 9.5,
+    "axes.titleweight": "bold",
+    "axes.titlelocation": "left",
+    "axes.titlepad": 8,
+    "axes.labelsize": 8.5,
+    "axes.edgecolor": "#c5ccd3",
+    "axes.labelcolor": PALETTE["ink"],
+    "axes.linewidth": 0.8,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "xtick.color": PALETTE["muted"],
+    "ytick.color": PALETTE["muted"],
+    "text.color": PALETTE["ink"],
+    "figure.facecolor": PALETTE["paper"],
+    "axes.facecolor": PALETTE["paper"],
+    "grid.color": "#edf0f2",
+    "grid.linewidth": 0.8,
+    "legend.frameon": False,
+    "legend.fontsize": 7.5,
+    "svg.fonttype": "none",
+    "axes.axisbelow": True,
+}
+
+DPI = 110
+#: one panel in inches: three side by side fill the page column at 1:1 (3 x 2.9 in x 110 dpi)
+PANEL_W, PANEL_H = 2.9, 2.8
+PNG_COLOURS = 160
+
+#: sequential map for pair matrices: warm paper -> pale teal -> deep teal -> night
+_SEQ_CMAP = matplotlib.colors.LinearSegmentedColormap.from_list(
+    "syncstats_tide", ["#f6f1e4", "#bcdad6", "#4f9c95", "#1e6f6a", "#14383f"]
+)
+
+
+def plain(label) -> str:
+    """A user label safe for matplotlib text (no mathtext from a '$' in a name)."""
+    return str(label).replace("$", r"\$")
+
+
+def _new_figure(size, **kwargs) -> Figure:
+    """A figure with its own Agg canvas, outside pyplot's figure registry."""
+    fig = Figure(figsize=size, **kwargs)
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def to_data_uri(fig: Figure) -> str:
+    """PNG data URI of a figure.
+
+    The image is reduced to an adaptive palette of ``PNG_COLOURS`` colours (flat-colour
+    charts lose nothing visible) which makes the page about three times smaller.
+    """
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=DPI, metadata={"Software": None},
+                pil_kwargs={"compress_level": 1})
+    buf.seek(0)
+    with Image.open(buf) as im:
+        small = im.convert("RGB").quantize(colors=PNG_COLOURS, method=Image.Quantize.MEDIANCUT,
+                                           dither=Image.Dither.NONE)
+    out = io.BytesIO()
+    small.save(out, format="PNG", optimize=True)
+    return "data:image/png;base64," + base64.b64encode(out.getvalue()).decode("ascii")
+
+
+# --------------------------------------------------------------------------- panels
+
+
+def _panel_phase_difference(ax, s: PairSummary, result, head) -> str | None:
+    key = (s.signal_a, s.signal_b, int(head["p"]), int(head["q"]))
+    psi = result.phase_differences.get(key) if result.phase_differences else None
+    if psi is None:
+        return None
+    psi = np.asarray(psi, dtype=float)
+    psi = psi[np.isfinite(psi)]
+    if psi.size == 0:
+        return None
+    fig, spec = ax.figure, ax.get_subplotspec()
+    ax.remove()
+    ax = fig.add_subplot(spec, projection="polar")
+    n_bins = 36
+    counts, edges = np.histogram(np.angle(np.exp(1j * psi)), bins=n_bins, range=(-np.pi, np.pi))
+    share = counts / counts.sum()
+    width = edges[1] - edges[0]
+    ax.bar(edges[:-1] + width / 2, share, width=width * 0.92, color=PALETTE["data"],
+           alpha=0.85, edgecolor="white", linewidth=0.4)
+    ax.axhline(0, color=PALETTE["null"])
+    uniform = 1.0 / n_bins
+    th = np.linspace(-np.pi, np.pi, 200)
+    ax.plot(th, np.full_like(th, uniform), color=PALETTE["null"], lw=1, ls="--")
+    pref = head["preferred_phase"]
+    rmax = share.max() * 1.08
+    if not is_missing(pref):
+        length = rmax
+        if head["measure"] == "plv" and not is_missing(head["value"]):
+            length = rmax * float(np.clip(head["value"], 0, 1))
+        ax.annotate("", xy=(float(pref), length), xytext=(0, 0),
+                    arrowprops=dict(arrowstyle="-|>", color=PALETTE["observed"], lw=2))
+    ax.set_ylim(0, rmax)
+    ax.set_yticklabels([])
+    ax.set_xticks(np.deg2rad([0, 90, 180, 270]))
+    ax.set_xticklabels(["0", "π/2", "π", "−π/2"])
+    ax.grid(True, color="#e6eaee")
+    ax.spines["polar"].set_color("#c5ccd3")
+    ax.set_title(f"Phase difference ψ at {head['ratio']}", loc="left", pad=14)
+    return (
+        f"Phase difference ψ = q·φ_A − p·φ_B at {head['ratio']}, as shares of the record per "
+        "10° sector. A peaked rose means a preferred timing; the dashed circle is what a flat "
+        "(unlocked) distribution would give; the amber arrow points to the preferred phase"
+        + (" and its length is the PLV." if head["measure"] == "plv" else ".")
+    )
+
+
+def _panel_null(ax, s: PairSummary, result, head) -> str | None:
+    nd = result.null_distributions or {}
+    null = nd.get(head.name)
+    if null is None:
+        return None
+    null = np.asarray(null, dtype=float)
+    null = null[np.isfinite(null)]
+    if null.size == 0:
+        return None
+    value = float(head["value"])
+    lo = min(null.min(), value)
+    hi = max(null.max(), value)
+    pad = 0.05 * (hi - lo if hi > lo else 1.0)
+    bins = np.linspace(lo - pad, hi + pad, min(40, max(10, null.size // 10)) + 1)
+    counts, _, _ = ax.hist(null, bins=bins, color=PALETTE["null"], edgecolor="white", linewidth=0.4,
+            label=f"{null.size} {surrogate_name(head['surrogate'])} surrogates")
+    ax.axvline(value, color=PALETTE["observed"], lw=2.2, label=f"observed {fmt_num(value)}")
+    if not is_missing(head["null_mean"]):
+        ax.axvline(float(head["null_mean"]), color=PALETTE["ink"], lw=1, ls=":",
+                   label=f"null mean {fmt_num(head['null_mean'])}")
+    ax.set_xlabel(measure_name(head["measure"]))
+    ax.set_ylabel("surrogates")
+    ax.legend(loc="upper right", handlelength=1.4)
+    ax.set_ylim(0, max(1.0, float(np.max(counts))) * 1.6)
+    ax.set_title(f"Observed vs. chance ({head['ratio']})")
+    return (
+        "What independent rhythms with the same spectra give (grey) and the observed value "
+        "(amber line). Locking is claimed only when the amber line sits clear of the grey mass."
+    )
+
+
+def _panel_timecourse(ax, s: PairSummary, result, head) -> str | None:
+    w = s.windows
+    if w.empty:
+        return None
+    w = w[w["measure"] == head["measure"]]
+    ratios = list(dict.fromkeys([head["ratio"]] + w["ratio"].tolist()))[:4]
+    colors = [PALETTE["data"], "#7a5aa6", "#3f7fb5", "#8f8a3a"]
+    drawn = False
+    for r, c in zip(ratios, colors):
+        g = w[w["ratio"] == r].sort_values("window_start_s")
+        if len(g) < 2:
+            continue
+        mid = (g["window_start_s"].to_numpy(float) + g["window_end_s"].to_numpy(float)) / 2
+        val = g["value"].to_numpy(float)
+        lo, hi = g["ci_low"].to_numpy(float), g["ci_high"].to_numpy(float)
+        if np.isfinite(lo).any():
+            ax.fill_between(mid, lo, hi, color=c, alpha=0.15, lw=0)
+        ax.plot(mid, val, color=c, lw=1.6, marker="o", ms=3, label=r)
+        sig = g["significant"].map(lambda x: (not is_missing(x)) and bool(x)).to_numpy(bool)
+        if sig.any():
+            ax.plot(mid[sig], val[sig], ls="none", marker="o", ms=7, mfc="none",
+                    mec=PALETTE["observed"], mew=1.6)
+        nm = g["null_mean"].to_numpy(float)
+        if np.isfinite(nm).any():
+            ax.plot(mid, nm, color=PALETTE["null"], lw=1, ls="--")
+        drawn = True
+    if not drawn:
+        return None
+    ax.set_xlabel("time (s, window centre)")
+    ax.set_ylabel(measure_name(head["measure"]))
+    ax.grid(True, axis="y")
+    if len(ratios) > 1:
+        ax.legend(loc="lower right", bbox_to_anchor=(1.0, 1.0), ncol=len(ratios),
+                  handlelength=1.2, columnspacing=0.8, borderaxespad=0.2)
+    ax.set_title("Over time")
+    return (
+        f"{measure_name(head['measure'])} in each window (line; band = confidence interval); "
+        "dashed grey = null mean; amber rings = windows significant after correction."
+    )
+
+
+def _panel_ratio_scan(ax, s: PairSummary, result, head) -> str | None:
+    if s.is_group:
+        return None
+    rows = s.whole if not s.whole.empty else s.windows
+    rows = rows[rows["measure"] == head["measure"]]
+    if rows["ratio"].nunique() < 2 or not s.whole.size:
+        return None
+    rows = rows.drop_duplicates("ratio")
+    x = np.arange(len(rows))
+    val = rows["value"].to_numpy(float)
+    sig = rows["significant"].map(lambda v: (not is_missing(v)) and bool(v)).to_numpy(bool)
+    colors = [PALETTE["data"] if k else PALETTE["data_soft"] for k in sig]
+    ax.bar(x, val, color=colors, width=0.65)
+    nm = rows["null_mean"].to_numpy(float)
+    if np.isfinite(nm).any():
+        ax.scatter(x, nm, marker="_", s=220, color=PALETTE["ink"], lw=1.6, zorder=3,
+                   label="null mean")
+        ax.legend(loc="upper right")
+    lo, hi = rows["ci_low"].to_numpy(float), rows["ci_high"].to_numpy(float)
+    ok = np.isfinite(lo) & np.isfinite(hi)
+    if ok.any():
+        # an interval need not contain the value (e.g. percentile bootstrap of a biased
+        # index), so it is drawn as a plain segment
+        ax.vlines(x[ok], lo[ok], hi[ok], color=PALETTE["muted"], lw=1.2, zorder=4)
+    ax.set_xticks(x)
+    ax.set_xticklabels(rows["ratio"].tolist(), rotation=0 if len(rows) < 8 else 45)
+    ax.set_xlabel("ratio p:q (cycles of A : cycles of B)")
+    ax.set_ylabel(measure_name(head["measure"]))
+    ax.grid(True, axis="y")
+    ax.margins(y=0.2)
+    ax.set_title("Ratios tested")
+    return (
+        "Each tested ratio: dark bars are significant after correction for the whole search, "
+        "pale bars are not; black ticks = null mean (the level chance alone reaches)."
+    )
+
+
+def _panel_synchrogram(ax, s: PairSummary, result, head) -> str | None:
+    if s.is_group or not result.events or result.time_s is None or not result.phases:
+        return None
+    p, q = int(head["p"]), int(head["q"])
+    a, b = s.signal_a, s.signal_b
+    # events of the faster rhythm, phase of the slower one, wrapped over its q (or p) cycles
+    options = [(a, b, q)] if p > q else [(b, a, p)] if q > p else [(a, b, q), (b, a, p)]
+    for fast, slow, m in options:
+        ev = result.events.get(fast)
+        ph = result.phases.get(slow)
+        if ev is not None and ph is not None:
+            break
+    else:
+        return None
+    t = np.asarray(result.time_s, dtype=float)
+    ph = np.asarray(ph, dtype=float)
+    ev = np.asarray(ev, dtype=float)
+    if t.size < 2 or ph.shape[-1] != t.size:
+        return None
+    ok = np.isfinite(ph)
+    ev = ev[(ev >= t[ok].min()) & (ev <= t[ok].max())] if ok.any() else ev[:0]
+    if ev.size == 0:
+        return None
+    at_ev = np.interp(ev, t[ok], ph[ok])
+    y = np.mod(at_ev, 2 * np.pi * m) / (2 * np.pi)
+    ax.scatter(ev, y, s=7, color=PALETTE["data"], alpha=0.85, lw=0)
+    ax.set_ylim(0, m)
+    ax.set_yticks(np.arange(m + 1) if m > 1 else [0, 0.5, 1])
+    ax.set_xlabel(f"time of each {plain(fast)} event (s)")
+    ax.set_ylabel(f"{plain(slow)} phase / 2π, mod {m}")
+    ax.grid(True, axis="y")
+    ax.set_title(f"Synchrogram ({head['ratio']})")
+    n_lines = max(p, q) if p != q else 1
+    return (
+        f"Phase of {slow} (wrapped over {m} cycle{'s' if m > 1 else ''}) at each event of "
+        f"{fast}. Locking at {head['ratio']} shows as {n_lines} flat band"
+        f"{'s' if n_lines > 1 else ''}; drifting stripes mean the rhythms slip."
+    )
+
+
+_PAIR_PANELS = (
+    _panel_phase_difference,
+    _panel_null,
+    _panel_ratio_scan,
+    _panel_timecourse,
+    _panel_synchrogram,
+)
+
+
+def pair_figure(s: PairSummary, result) -> tuple[str | None, list[str]]:
+    """One figure per pair (up to five panels). Returns (data URI or None, captions)."""
+    head = s.headline
+    if head is None:
+        return None, []
+    with matplotlib.rc_context(_RC):
+        fig = _new_figure((PANEL_W * 3, PANEL_H * 2))
+        gs = fig.add_gridspec(2, 3)
+        captions = []
+        used = 0
+        for panel in _PAIR_PANELS:
+            if used >= 6:
+                break
+            ax = fig.add_subplot(gs[used // 3, used % 3])
+            cap = panel(ax, s, result, head)
+            if cap is None:
+                for extra in [a for a in fig.axes if a.get_subplotspec() is not None
+                              and a.get_subplotspec().num1 == used]:
+                    extra.remove()
+                continue
+            captions.append(cap)
+            used += 1
+        if used == 0:
+            return None, []
+        # re-lay the panels actually drawn: 1-3 in a row, 4 as 2 x 2, 5-6 as 2 x 3
+        rows, cols = (1, used) if used <= 3 else ((2, 2) if used == 4 else (2, 3))
+        fig.set_size_inches(PANEL_W * cols, PANEL_H * rows)
+        new_gs = fig.add_gridspec(rows, cols)
+        for ax in list(fig.axes):
+            num = ax.get_subplotspec().num1
+            ax.set_subplotspec(new_gs[num // cols, num % cols])
+        fig.tight_layout(pad=1.0, w_pad=2.2, h_pad=2.0)
+        fig.set_layout_engine("none")  # laid out once; no second layout pass when saving
+        return to_data_uri(fig), captions
+
+
+def group_figure(table: pd.DataFrame, morder: list, *, max_maps: int = 6):
+    """Pair-matrix heat maps of the value (row = signal A, column = signal B).
+
+    One map per recording x ratio of the first measure, on whole-record rows (or the
+    first window when only windows exist). Returns (data URI, caption) or (None, "").
+    """
+    pairs = table[table["signal_b"] != ""]
+    if pairs.empty:
+        return None, ""
+    measure = next((m for m in morder if (pairs["measure"] == m).any()), pairs["measure"].iloc[0])
+    pairs = pairs[pairs["measure"] == measure]
+    # keep one row per (recording, a, b, ratio): the longest span
+    span = pairs["window_end_s"].astype(float) - pairs["window_start_s"].astype(float)
+    pairs = pairs.assign(_span=span.fillna(0)).sort_values("_span", ascending=False, kind="stable")
+    pairs = pairs.drop_duplicates(["recording", "signal_a", "signal_b", "ratio"])
+    maps = []
+    for rec, g in pairs.groupby("recording", sort=False):
+        names = list(dict.fromkeys(g["signal_a"].tolist() + g["signal_b"].tolist()))
+        if len(names) < 3:
+            continue
+        for r in list(dict.fromkeys(g["ratio"].tolist())):
+            maps.append((rec, r, names, g[g["ratio"] == r]))
+    if not maps:
+        return None, ""
+    omitted = max(0, len(maps) - max_maps)
+    maps = maps[:max_maps]
+    ncol = min(len(maps), 3)
+    nrow = int(np.ceil(len(maps) / ncol))
+    with matplotlib.rc_context(_RC):
+        size = max(len(m[2]) for m in maps)
+        cell = 0.42 if size <= 10 else 0.26
+        w = max(3.4, 1.6 + cell * size)
+        fig = _new_figure((w * ncol + 1.0, (w - 0.4) * nrow), layout="constrained")
+        axes = fig.subplots(nrow, ncol, squeeze=False)
+        cmap = _SEQ_CMAP
+        allv = np.concatenate([m[3]["value"].to_numpy(float) for m in maps])
+        allv = allv[np.isfinite(allv)]
+        vmax = max(float(allv.max()), 1e-9) if allv.size else 1.0
+        vmin = min(0.0, float(allv.min())) if allv.size else 0.0
+        im = None
+        for ax, (rec, r, names, g) in zip(axes.flat, maps):
+            k = len(names)
+            idx = {n: i for i, n in enumerate(names)}
+            mat = np.full((k, k), np.nan)
+            sig = np.zeros((k, k), bool)
+            for _, row in g.iterrows():
+                i, j = idx[row["signal_a"]], idx[row["signal_b"]]
+                mat[i, j] = row["value"]
+                sig[i, j] = (not is_missing(row["significant"])) and bool(row["significant"])
+                if str(r) == "1:1" and np.isnan(mat[j, i]):
+                    mat[j, i], sig[j, i] = mat[i, j], sig[i, j]
+            im = ax.imshow(np.ma.masked_invalid(mat), cmap=cmap, vmin=vmin, vmax=vmax)
+            ax.set_facecolor("#f3f4f6")
+            ax.set_xticks(range(k))
+            ax.set_yticks(range(k))
+            lab = [plain(n) if len(n) <= 14 else plain(n[:13]) + "…" for n in names]
+            ax.set_xticklabels(lab, rotation=45, ha="right")
+            ax.set_yticklabels(lab)
+            ax.spines[:].set_visible(False)
+            if k <= 10:
+                for i in range(k):
+                    for j in range(k):
+                        if np.isfinite(mat[i, j]):
+                            txt = f"{mat[i, j]:.2f}".replace("-", "−") + ("*" if sig[i, j] else "")
+                            light = (mat[i, j] - vmin) / (vmax - vmin + 1e-12) > 0.55
+                            ax.text(j, i, txt, ha="center", va="center", fontsize=7,
+                                    color="white" if light else PALETTE["ink"],
+                                    fontweight="bold" if sig[i, j] else "normal")
+            title = f"{measure_name(measure)} at {r}"
+            if rec:
+                title = f"{plain(rec)}: {title}"
+            ax.set_title(title)
+        for ax in list(axes.flat)[len(maps):]:
+            ax.remove()
+        if im is not None:
+            fig.colorbar(im, ax=axes.ravel().tolist(), shrink=0.7, label=measure_name(measure))
+        uri = to_data_uri(fig)
+    cap = (
+        f"{measure_name(measure)} for every pair (row = signal A, column = signal B; a 1:1 "
+        "map is symmetric). * and bold = significant after correction. Grey = not analysed."
+    )
+    if omitted:
+        cap += f" {omitted} further map(s) were left out to keep the page small; see results.csv."
+    return uri, cap

@@ -1,0 +1,398 @@
+"""methods.md: a methods paragraph ready to paste into a paper, with its references.
+
+Only what the run used is named and cited. Wording is ours; the reference list is taken
+from the project's METHODS.md notes (author, year, journal, volume:pages).
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+
+from ._common import fmt_level, ratio_words
+
+__all__ = ["methods_text", "write_methods_md", "CAUTION"]
+
+CAUTION = (
+    "syncstats is research software, not a medical device: its results are not for "
+    "diagnosis or treatment. Follow local regulations and qualified clinical judgement."
+)
+
+REFERENCES = {
+    "chavez2006": "Chavez M, et al. (2006). J Neurosci Methods 154:149–160.",
+    "torrence1998": "Torrence C, Compo GP (1998). Bull Am Meteorol Soc 79:61–78.",
+    "kralemann2007": "Kralemann B, et al. (2007). Phys Rev E 76:055201(R).",
+    "kralemann2008": "Kralemann B, et al. (2008). Phys Rev E 77:066205.",
+    "mormann2000": "Mormann F, et al. (2000). Physica D 144:358–369.",
+    "lachaux1999": "Lachaux J-P, et al. (1999). Hum Brain Mapp 8:194–208.",
+    "vinck2010": "Vinck M, et al. (2010). NeuroImage 51:112–122.",
+    "tass1998": "Tass P, et al. (1998). Phys Rev Lett 81:3291–3294.",
+    "schafer1998": "Schäfer C, Rosenblum MG, Kurths J, Abel H-H (1998). Nature 392:239–240.",
+    "schafer1999": "Schäfer C, et al. (1999). Phys Rev E 60:857–870.",
+    "allefeld2004": "Allefeld C, Kurths J (2004). Int J Bifurcat Chaos 14:417–426.",
+    "theiler1992": "Theiler J, et al. (1992). Physica D 58:77–94.",
+    "schreiber1996": "Schreiber T, Schmitz A (1996). Phys Rev Lett 77:635–638.",
+    "prichard1994": "Prichard D, Theiler J (1994). Phys Rev Lett 73:951–954.",
+    "hurtado2004": "Hurtado JM, et al. (2004). J Neurophysiol 91:1883–1898.",
+    "thiel2006": "Thiel M, et al. (2006). Europhys Lett 75:535–541.",
+    "romano2009": "Romano MC, et al. (2009). Chaos 19:015108.",
+    "phipson2010": "Phipson B, Smyth GK (2010). Stat Appl Genet Mol Biol 9:39.",
+    "westfall1993": "Westfall PH, Young SS (1993). Resampling-Based Multiple Testing. Wiley.",
+    "bh1995": "Benjamini Y, Hochberg Y (1995). J R Stat Soc B 57:289–300.",
+    "by2001": "Benjamini Y, Yekutieli D (2001). Ann Stat 29:1165–1188.",
+    "holm1979": "Holm S (1979). Scand J Stat 6:65–70.",
+    "efron1993": "Efron B, Tibshirani RJ (1993). An Introduction to the Bootstrap. Chapman & Hall.",
+}
+
+_MEASURE_TEXT = {
+    "plv": ("the phase-locking value (PLV, the length of the time average of the unit vector exp(iψ))",
+            ["mormann2000"]),
+    "ppc": ("the pairwise phase consistency (PPC, an estimate of the squared PLV that is "
+            "unbiased by the number of samples)", ["vinck2010"]),
+    "entropy_index": ("the Shannon-entropy index of the distribution of ψ", ["tass1998"]),
+    "conditional_index": ("the conditional-probability (stroboscopic) index", ["tass1998"]),
+    "order_parameter": ("the Kuramoto order parameter of the group", ["allefeld2004"]),
+}
+
+_SURROGATE_TEXT = {
+    "fourier": ("Fourier phase-randomised surrogates", ["theiler1992"]),
+    "aaft": ("amplitude-adjusted Fourier-transform (AAFT) surrogates", ["theiler1992"]),
+    "iaaft": ("iterative amplitude-adjusted Fourier-transform (IAAFT) surrogates, which keep "
+              "each signal's power spectrum and value distribution", ["schreiber1996"]),
+    "multivariate_fourier": ("multivariate Fourier surrogates (one random phase per frequency "
+                             "shared by all channels, keeping the cross-spectrum)",
+                             ["prichard1994"]),
+    "time_shift": ("time-shift surrogates (one signal shifted circularly against the other "
+                   "by several cycles)", ["hurtado2004"]),
+    "twin": ("twin surrogates (new trajectories of the same system from recurrence twins)",
+             ["thiel2006", "romano2009"]),
+    "trial_shuffle": ("trial-shuffled surrogates (trial i of one signal paired with another "
+                      "trial of the other)", []),
+    "interval_shuffle": ("interval-shuffled surrogates (inter-event intervals permuted)", []),
+}
+
+_CORRECTION_TEXT = {
+    "fdr_bh": ("the Benjamini–Hochberg false-discovery-rate procedure", ["bh1995"]),
+    "fdr_by": ("the Benjamini–Yekutieli false-discovery-rate procedure (valid under any "
+               "dependence)", ["by2001"]),
+    "holm": ("Holm's step-down family-wise correction", ["holm1979"]),
+    "bonferroni": ("the Bonferroni family-wise correction", []),
+    "max_stat": ("a max-statistic family-wise correction: each statistic was standardised "
+                 "against its own surrogates and compared with the distribution of the "
+                 "maximum over the family within each surrogate", ["westfall1993"]),
+}
+
+_NULL_TEXT = {
+    "": "the rhythms are independent while each keeps its own properties",
+    "multivariate_fourier": ("the signals are linearly correlated Gaussian processes with the "
+                             "observed spectra and cross-spectra, so that only locking beyond "
+                             "linear coupling counts"),
+    "time_shift": ("each rhythm keeps its own dynamics but their relative timing is "
+                   "arbitrary"),
+    "twin": "the rhythms are independent runs of the same underlying systems",
+}
+
+_NULL_LEVEL_TEXT = {
+    "signal": ("Each surrogate was made from the raw signal and passed through exactly the "
+               "same preprocessing and phase estimation as the data, so any locking that the "
+               "filters themselves create is part of the null."),
+    "phase": ("Surrogates were made at the level of the phases supplied, not from raw "
+              "signals; they do not account for locking created by any filtering done before "
+              "the phases were computed."),
+    "event": ("Surrogates were made at the level of the event times supplied, not from raw "
+              "signals; they do not account for any processing done before the events were "
+              "detected."),
+}
+
+
+def _as_list(x) -> list:
+    if x is None:
+        return []
+    if isinstance(x, (str, bytes)):
+        return [x]
+    if isinstance(x, dict):
+        return list(x.items())
+    try:
+        return list(x)
+    except TypeError:
+        return [x]
+
+
+def _join(words: list[str]) -> str:
+    words = [w for w in words if w]
+    if len(words) <= 1:
+        return "".join(words)
+    return ", ".join(words[:-1]) + " and " + words[-1]
+
+
+class _Cites:
+    def __init__(self):
+        self.keys: list[str] = []
+
+    def __call__(self, keys) -> str:
+        """Register references; return an in-text marker like ' [1, 2]'."""
+        nums = []
+        for k in keys:
+            if k not in self.keys:
+                self.keys.append(k)
+            nums.append(self.keys.index(k) + 1)
+        return f" [{', '.join(map(str, nums))}]" if nums else ""
+
+
+def _phase_sentence(params: dict, diagnostics: pd.DataFrame, cite: _Cites) -> str:
+    methods = set()
+    pm = params.get("phase_method")
+    for m in _as_list(pm):
+        methods.add(str(m[1] if isinstance(m, tuple) else m))
+    if diagnostics is not None and not diagnostics.empty and "method" in diagnostics:
+        methods.update(str(m) for m in diagnostics["method"].dropna())
+    parts = []
+    if "hilbert" in methods:
+        parts.append("the analytic signal (Hilbert transform) of each detrended, zero-phase "
+                     "band-pass filtered signal, with the filter edges discarded"
+                     + cite(["chavez2006"]))
+    if "wavelet" in methods:
+        parts.append("the argument of a complex Morlet wavelet transform at the rhythm's "
+                     "frequency" + cite(["torrence1998"]))
+    if methods & {"events", "event"}:
+        parts.append("linear interpolation of 2π per interval between successive event "
+                     "times (marker events)")
+    if methods & {"phase", "phases"}:
+        parts.append("phases supplied directly with the data (used as given)")
+    other = sorted(methods - {"hilbert", "wavelet", "events", "event", "phase", "phases"})
+    parts.extend(f"the '{m}' method" for m in other)
+    if not parts:
+        return ""
+    s = f"Instantaneous phases were obtained from {_join(parts)}."
+    bands = params.get("bands")
+    if bands:
+        if isinstance(bands, dict):
+            txt = _join([f"{k} {_band_txt(v)}" for k, v in bands.items()])
+        else:
+            txt = _band_txt(bands)
+        s += f" Pass bands: {txt}."
+    if params.get("protophase_correction"):
+        s += (" Each phase estimate was transformed so that its density over the cycle is "
+              "uniform (protophase-to-phase correction)" + cite(["kralemann2007", "kralemann2008"]) + ".")
+    return s
+
+
+def _band_txt(v) -> str:
+    if v is None or (isinstance(v, str) and v in ("", "auto")):
+        return "chosen around each signal's spectral peak"
+    try:
+        lo, hi = (float(x) for x in v)
+        return f"{lo:.3g}–{hi:.3g} Hz"
+    except (TypeError, ValueError):
+        return str(v)
+
+
+def _windows_text(windows, table) -> str:
+    """'in 9 windows of 60 s (0–300 s)' or '' when the whole record was one window."""
+    spans = []
+    for w in _as_list(windows):
+        try:
+            a, b = (float(x) for x in w)
+        except (TypeError, ValueError):
+            continue
+        spans.append((a, b))
+    if len(spans) < 2 and isinstance(windows, (int, float)) and not isinstance(windows, bool):
+        return f"in windows of {float(windows):g} s"
+    if len(spans) < 2 and table is not None and not table.empty:
+        spans = list(dict.fromkeys(zip(table["window_start_s"].astype(float),
+                                       table["window_end_s"].astype(float))))
+    if len(spans) < 2:
+        return ""
+    lengths = sorted({round(b - a, 3) for a, b in spans})
+    ltxt = f"{lengths[0]:g} s" if len(lengths) == 1 else f"{lengths[0]:g} to {lengths[-1]:g} s"
+    lo = min(a for a, _ in spans)
+    hi = max(b for _, b in spans)
+    return f"in {len(spans)} windows of {ltxt} between {lo:g} and {hi:g} s"
+
+
+def _ci_sentence(params: dict, table, cite) -> str:
+    has_ci = table is not None and not table.empty and table["ci_low"].notna().any()
+    n_boot = params.get("n_bootstrap")
+    if not has_ci or (n_boot is not None and not n_boot):
+        return ""
+    lvl = fmt_level(params.get("ci_level")) or fmt_level(table["ci_level"].dropna().iloc[0]
+                                                         if table["ci_level"].notna().any() else None)
+    kind = str(params.get("ci_method") or "")
+    texts = [t for t in dict.fromkeys(table["ci_method"].astype(str)) if t]
+    boot = n_boot or any("boot" in t.lower() for t in texts)
+    head = f"The {lvl + '% ' if lvl else ''}confidence interval"
+    if boot:
+        detail = ", ".join(x for x in (f"{int(n_boot)} resamples" if n_boot else "",
+                                       f"{kind} interval" if kind else "") if x)
+        return (f"{head} of each value came from a block bootstrap that resamples whole cycles "
+                f"rather than single samples{' (' + detail + ')' if detail else ''}"
+                f"{cite(['efron1993'])}.")
+    how = texts[0] if texts else kind
+    return f"{head} of each value: {how}." if how else ""
+
+
+def _ratio_list(table: pd.DataFrame, params: dict) -> list[str]:
+    if table is not None and not table.empty:
+        return list(dict.fromkeys(str(r) for r in table["ratio"] if str(r)))
+    rs = params.get("ratios")
+    out = []
+    for r in _as_list(rs):
+        if isinstance(r, (list, tuple)) and len(r) == 2:
+            out.append(f"{int(r[0])}:{int(r[1])}")
+        else:
+            out.append(str(r))
+    return out
+
+
+def _example_pair(table: pd.DataFrame):
+    if table is None or table.empty:
+        return None
+    pairs = table[table["signal_b"] != ""]
+    if pairs.empty:
+        return None
+    nonunit = pairs[(pairs["p"] != pairs["q"])]
+    row = (nonunit if not nonunit.empty else pairs).iloc[0]
+    return str(row["signal_a"]), str(row["signal_b"]), int(row["p"]), int(row["q"]), str(row["ratio"])
+
+
+def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
+    """The methods section (Markdown) for ``result``.
+
+    One paragraph naming every method, parameter and count used, the ratio convention in
+    words, the run's notes (``notes=True``), the caution (``caution=True``) and the
+    numbered references (only those cited in the paragraph).
+    """
+    params = dict(result.params or {})
+    table = result.table
+    cite = _Cites()
+    para: list[str] = []
+
+    n_signals = 0
+    if table is not None and not table.empty:
+        n_signals = len(set(table["signal_a"]) | set(table.loc[table["signal_b"] != "", "signal_b"]))
+    fs = params.get("fs")
+    head = "Phase synchronization was assessed with syncstats"
+    ver = params.get("syncstats_version")
+    if ver:
+        head += f" (version {ver})"
+    bits = []
+    if n_signals:
+        bits.append(f"{n_signals} signals")
+    if fs:
+        bits.append(f"sampled at {float(fs):g} Hz")
+    para.append(head + (f" on {' '.join(bits)}" if bits else "") + ".")
+
+    ph = _phase_sentence(params, result.diagnostics, cite)
+    if ph:
+        para.append(ph)
+
+    ratios = _ratio_list(table, params)
+    if ratios:
+        nm = any(r != "1:1" for r in ratios)
+        s = (f"For each pair the generalized phase difference ψ = q·φ_A − p·φ_B was formed at "
+             f"the ratio{'s' if len(ratios) > 1 else ''} {_join(ratios)}")
+        if params.get("ratios") == "auto":
+            s += " (chosen from the signals' dominant frequencies)"
+        s += (cite(["tass1998"]) if nm else "") + "."
+        para.append(s)
+
+    measures = [str(m) for m in _as_list(params.get("measures"))]
+    if table is not None and not table.empty:
+        measures += [m for m in dict.fromkeys(table["measure"]) if m not in measures]
+    mtxt = []
+    for m in measures:
+        text, refs = _MEASURE_TEXT.get(m, (f"the measure '{m}'", []))
+        mtxt.append(text + cite(refs))
+    if mtxt:
+        para.append(f"Locking was quantified by {_join(mtxt)}.")
+
+    wtxt = _windows_text(params.get("windows"), table)
+    if wtxt:
+        para.append(f"To follow locking over time, every measure was computed {wtxt}, and every "
+                    "window counted as a separate test.")
+
+    n_sur = int(params.get("n_surrogates") or 0)
+    sur = str(params.get("surrogate") or "")
+    if n_sur > 0:
+        text, refs = _SURROGATE_TEXT.get(sur, (f"'{sur}' surrogates", []))
+        per_signal = sur in ("fourier", "aaft", "iaaft", "twin")
+        s = (f"Significance was tested against {n_sur} {text}{cite(refs)}"
+             + (", generated independently for each signal," if per_signal else ",")
+             + f" under the null hypothesis that {_NULL_TEXT.get(sur, _NULL_TEXT[''])}.")
+        para.append(s)
+        nl = str(params.get("null_level") or "")
+        if nl in _NULL_LEVEL_TEXT:
+            para.append(_NULL_LEVEL_TEXT[nl])
+        para.append("The p-value of each test was (1 + k)/(1 + S), where k is the number of the "
+                    "S surrogates whose value reached the observed one, so p is never zero"
+                    + cite(["phipson2010"]) + ". For each row the surrogate mean (the bias "
+                    "expected without coupling), the debiased effect (value − surrogate mean) and "
+                    "z = effect / surrogate standard deviation are reported.")
+        corr = str(params.get("correction") or "none")
+        alpha = params.get("alpha")
+        fam = ""
+        if table is not None and not table.empty:
+            fams = [f for f in dict.fromkeys(table["family"].astype(str)) if f]
+            if fams:
+                fam = f" The family corrected for was: {'; '.join(fams)}."
+        if corr in ("none", ""):
+            para.append("No correction for multiple testing was applied; the p-values are "
+                        "per test." + fam)
+        else:
+            text, refs = _CORRECTION_TEXT.get(corr, (f"the '{corr}' correction", []))
+            para.append(f"Every ratio, pair and window searched was corrected for together with "
+                        f"{text}{cite(refs)}.{fam}")
+        if alpha is not None:
+            para.append(f"A result was called significant when its corrected p-value was below "
+                        f"α = {float(alpha):g}.")
+    else:
+        para.append("No surrogates were drawn (n_surrogates = 0), so no significance test was "
+                    "made: the values are descriptive only.")
+
+    ci = _ci_sentence(params, table, cite)
+    if ci:
+        para.append(ci)
+
+    seed = params.get("seed_entropy")
+    if seed is not None:
+        para.append(f"All random draws came from one seeded generator (seed entropy {seed}), so "
+                    "the analysis can be repeated exactly.")
+
+    if result.events:
+        para.append("Synchrograms (the phase of the slower rhythm at each event of the faster "
+                    "one) are shown for event data" + cite(["schafer1998", "schafer1999"]) + ".")
+
+    lines = ["# Methods", "", " ".join(para), ""]
+
+    lines += ["## Ratio convention", ""]
+    lines.append("A ratio p:q means that signal A completes p cycles while signal B completes "
+                 "q cycles (the frequency of A is about p/q times that of B), and the phase "
+                 "difference tested is ψ = q·φ_A − p·φ_B, which stays bounded when the two are "
+                 "locked at that ratio.")
+    ex = _example_pair(table)
+    if ex:
+        a, b, p, q, r = ex
+        lines.append(f"For example, {r} for the pair ({a}, {b}) means that {ratio_words(a, b, p, q)}.")
+    lines.append("")
+
+    run_notes = [str(n) for n in (result.notes or []) if str(n).strip()] if notes else []
+    if run_notes:
+        lines += ["## Notes from the run", ""]
+        lines += [f"- {n}" for n in run_notes]
+        lines.append("")
+
+    if caution:
+        lines += ["## Caution", "", CAUTION, ""]
+
+    if cite.keys:
+        lines += ["## References", ""]
+        lines += [f"{i}. {REFERENCES[k]}" for i, k in enumerate(cite.keys, 1)]
+        lines.append("")
+    return "\n".join(lines)
+
+
+def write_methods_md(result, path) -> Path:
+    """Write :func:`methods_text` to ``path`` (UTF-8). Returns the path."""
+    path = Path(path)
+    path.write_text(methods_text(result), encoding="utf-8")
+    return path

@@ -1,0 +1,64 @@
+"""save_result: every output file of a run, written into a new folder all at once."""
+from __future__ import annotations
+
+from pathlib import Path
+
+from .._errors import SyncstatsInputError
+from ..results import ResultData
+from . import _html, _methods, _provenance, _table
+from ._atomic import write_folder_atomically
+
+__all__ = ["save_result", "OUTPUT_FILES"]
+
+#: the files of a saved result, in writing order
+OUTPUT_FILES = ("results.csv", "report.html", "methods.md", "provenance.json")
+
+
+def save_result(result: ResultData, out_dir, *, overwrite: bool = False) -> Path:
+    """Write results.csv, report.html, methods.md and provenance.json into ``out_dir``.
+
+    Parameters
+    ----------
+    result : ResultData
+        What ``syncstats.analyze`` returned.
+    out_dir : str or path-like
+        A new or empty folder (parents are created). A non-empty folder is refused
+        unless ``overwrite=True``.
+    overwrite : bool, default False
+        Replace the contents of a non-empty ``out_dir`` (swapped in by renames, so the old
+        contents stay intact if writing fails). Refused if an input file lies inside it.
+
+    Returns
+    -------
+    pathlib.Path
+        The absolute path of the folder.
+
+    Raises
+    ------
+    SyncstatsInputError
+        ``result`` is not a result, or ``out_dir`` exists, is non-empty and
+        ``overwrite`` is False, or is a file.
+
+    Notes
+    -----
+    The files are built in a hidden temporary folder beside ``out_dir`` and renamed into
+    place only when all four are written; after any failure nothing is left behind.
+    """
+    if not isinstance(result, ResultData):
+        raise SyncstatsInputError(
+            f"save_result expects the result of syncstats.analyze (a ResultData), got "
+            f"{type(result).__name__}; pass the object analyze returned."
+        )
+    prov = _provenance.build_provenance(result)
+
+    def build(folder: Path) -> None:
+        written = [
+            _table.write_results_csv(result, folder / "results.csv"),
+            _html.write_report_html(result, folder / "report.html", provenance=prov),
+            _methods.write_methods_md(result, folder / "methods.md"),
+        ]
+        _provenance.write_provenance_json(result, folder / "provenance.json",
+                                          output_files=written, record=prov)
+
+    return write_folder_atomically(out_dir, build, overwrite=overwrite,
+                                   protected=list(result.inputs or []))
