@@ -190,10 +190,11 @@ def analyze(
         20 samples per mean cycle of the fastest event train).
     pairs : list of (name_a, name_b), optional
         Default: every pair of signals, events and phases, in input order.
-    ratios : list of (p, q) or "p:q", or "auto"
+    ratios : list of (p, q) or "p:q", "auto", or a mapping (name_a, name_b) -> either
         ``p:q`` means A completes p cycles while B completes q; ``psi = q·phi_A − p·phi_B``.
         "auto" scans coprime ratios near the ratio of the dominant frequencies of each
-        pair. Default [(1, 1)].
+        pair. A mapping sets the ratios per pair (its keys are the pairs when ``pairs``
+        is not given). Default [(1, 1)].
     measures : sequence of str
         Any of "plv", "ppc", "entropy_index", "conditional_index" (per pair) and
         "order_parameter" (one row for the whole group, signal_a = ``group_label``).
@@ -441,12 +442,31 @@ def analyze(
     pair_measures = [m for m in measures if m != "order_parameter"]
     if not pair_measures:
         pair_list = []
+    if isinstance(ratios, Mapping):
+        per_pair = {}
+        for k, v in ratios.items():
+            key = tuple(str(x) for x in k) if not isinstance(k, str) else tuple(k.split("|"))
+            if len(key) != 2 or key[0] not in kinds or key[1] not in kinds:
+                raise SyncstatsInputError(
+                    f"ratios key {k!r} must be a pair (name_a, name_b) of the rhythms ({', '.join(all_names)})."
+                )
+            per_pair[key] = v
+        if pairs is None and pair_measures:
+            pair_list = list(per_pair)
+        missing = [pr for pr in pair_list if pr not in per_pair]
+        if missing:
+            raise SyncstatsInputError(
+                f"ratios gives no entry for the pair {missing[0]}; add one or leave the pair out of pairs."
+            )
+    else:
+        per_pair = {pr: ratios for pr in pair_list}
     ratio_map = {}
     for a, b in pair_list:
-        if isinstance(ratios, str) and ratios == "auto":
+        rr = per_pair[(a, b)]
+        if isinstance(rr, str) and rr == "auto":
             ratio_map[(a, b)] = M.auto_ratios(freqs[a], freqs[b])
         else:
-            rl = [(1, 1)] if ratios is None else ratios
+            rl = [(1, 1)] if rr is None else rr
             if isinstance(rl, (str, tuple)) and not (isinstance(rl, tuple) and rl and isinstance(rl[0], (tuple, list, str))):
                 rl = [rl]
             chk = []
@@ -627,7 +647,7 @@ def analyze(
         "fs": fs,
         "pairs": [list(p) for p in pair_list],
         "ratios": {f"{a}|{b}": [f"{p}:{q}" for p, q in rl] for (a, b), rl in ratio_map.items()},
-        "ratios_requested": ratios if isinstance(ratios, str) or ratios is None else [str(r) for r in (ratios if isinstance(ratios, list) else [ratios])],
+        "ratios_requested": ratios if isinstance(ratios, str) or ratios is None else str(ratios),
         "measures": list(measures),
         "surrogate": surrogate,
         "n_surrogates": n_surrogates,
