@@ -5,10 +5,10 @@ import math
 
 import numpy as np
 
-from ._common import (_fail, add_measurement_noise, check_n_replicas, check_ratio,
-                      check_real, check_time_grid, frozen, replica_streams)
+from ._common import (Simulation, _fail, add_measurement_noise, check_choice,
+                      check_n_replicas, check_ratio, check_real, check_time_grid,
+                      replica_streams)
 from ._phase_models import _finish
-from ._common import check_choice
 from ._runner import INTEGRATORS, ModelSpec, choose_substeps, integrate_spec
 
 __all__ = ["beat_train", "ecg_like", "breath_waveform"]
@@ -84,7 +84,7 @@ def _schedule(value, name, func, *, positive=False):
 def beat_train(duration, fs, *, heart_freq=1.0, breath_freq=0.25, ratio=(4, 1),
                coupling=0.0, rsa=0.0, heart_noise=0.1, breath_noise=0.1,
                amplitude_noise=0.15, amplitude_time=10.0, ecg=True, measurement_noise=0.0,
-               n_replicas=None, dt=None, integrator="auto", rng=None):
+               n_replicas=None, dt=None, integrator="auto", rng=None) -> Simulation:
     r"""Beat times of a pacemaker phase-coupled to a slower breathing-like rhythm.
 
     Unit 0 is the pacemaker ("heart"), unit 1 the slow rhythm ("breath"). Beats are the
@@ -245,7 +245,7 @@ def _beats_spec(vals, scheds, terms, sh, sr, sa, tau):
                      observe_angle=observe_angle, angle_unwrapped=True,
                      dt_max=1.0 / (100.0 * fmax), event_level=0.0,
                      inputs=inputs if varying else None,
-                     n_inputs=len(names) if varying else 0)
+                     n_inputs=len(names) if varying else 0, ivp_rtol=1e-10, ivp_atol=1e-10)
     return spec, fmax
 
 
@@ -260,7 +260,7 @@ def run_beats(spec, *, T, fs, dt, integrator, n_rep, rng, ecg, meas, func, strea
     k = choose_substeps(fs, spec.dt_max, dt, func)
     h = 1.0 / (fs * k)
     R = n_rep or 1
-    streams = replica_streams(rng, R, stream=stream)
+    streams = replica_streams(rng, R, stream=stream, func=func)
     inits = [spec.initial(s_[0]) for s_ in streams]
     rec = integrate_spec(spec, n_steps=(T - 1) * k, h=h, every=k, n_out=T, n_rep=R,
                          inits=inits, noise_gens=[s_[1] for s_ in streams],
@@ -273,7 +273,7 @@ def run_beats(spec, *, T, fs, dt, integrator, n_rep, rng, ecg, meas, func, strea
     signals = add_measurement_noise(clean, meas, [s_[2] for s_ in streams])
     params = {"integrator": integ, "dt_s": h, "substeps": k,
               "scheme": ("stochastic Heun, fixed step" if integ == "fixed"
-                         else "scipy.integrate.solve_ivp (DOP853)")}
+                         else "scipy.integrate.solve_ivp (DOP853, rtol 1e-10)")}
     return signals, rec.phases, events, params
 
 

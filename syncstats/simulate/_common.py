@@ -1,7 +1,7 @@
 """Shared pieces of the simulators: input checks, random streams, the result class.
 
 Everything here is private to :mod:`syncstats.simulate`.  Public functions validate their
-arguments with the ``_check_*`` helpers below so that the model code can assume clean
+arguments with the ``check_*`` helpers below so that the model code can assume clean
 input; every user error raises :class:`syncstats._errors.SyncstatsInputError` with one
 sentence naming the parameter, what is accepted and what to do.
 """
@@ -240,14 +240,17 @@ def pair_ratio(m_i: int, m_j: int) -> tuple[int, int]:
 
 
 # --------------------------------------------------------------------------- random streams
-def replica_streams(rng, n_rep: int, *, stream: int = 0):
+def replica_streams(rng, n_rep: int, *, stream: int = 0, func: str = "syncstats.simulate"):
     """Three generators per replica: (initial conditions, intrinsic noise, measurement).
 
     Replica ``i`` uses the seed sequence with spawn key ``root.spawn_key + (stream, i)``,
     so replica i is the same whether 1 or 1000 replicas are requested, and different
     ``stream`` numbers give independent components of a composite simulation.
     """
-    root = as_seed_sequence(rng)
+    try:
+        root = as_seed_sequence(rng)
+    except SyncstatsInputError as exc:
+        raise SyncstatsInputError(f"{func}: parameter {exc}") from None
     out = []
     for i in range(n_rep):
         seq = np.random.SeedSequence(root.entropy, spawn_key=tuple(root.spawn_key) + (stream, i))

@@ -20,7 +20,7 @@ from types import MappingProxyType
 import numpy as np
 
 from .._rng import as_seed_sequence
-from ._beats import _beats_spec, ecg_like, run_beats
+from ._beats import _beats_spec, run_beats
 from ._common import _fail, check_time_grid
 from ._phase_models import stuart_landau
 from ._runner import integrate_spec

@@ -6,9 +6,9 @@ import math
 import numpy as np
 from scipy.linalg import cholesky, eigh, expm, solve_discrete_lyapunov
 
-from ._common import (DENSE_MAX_UNITS, _fail, add_measurement_noise, check_coupling,
-                      check_n_replicas, check_n_units, check_time_grid, check_vector,
-                      coupling_summary, replica_streams)
+from ._common import (DENSE_MAX_UNITS, Simulation, _fail, add_measurement_noise,
+                      check_coupling, check_n_replicas, check_n_units, check_time_grid,
+                      check_vector, coupling_summary, replica_streams)
 from ._phase_models import _finish
 
 __all__ = ["damped_noise_oscillator"]
@@ -39,7 +39,8 @@ def _discretise(A: np.ndarray, BBt: np.ndarray, h: float):
 
 
 def damped_noise_oscillator(n_units, duration, fs, *, freqs, coupling=0.0, damping=0.05,
-                            noise=None, measurement_noise=0.0, n_replicas=None, rng=None):
+                            noise=None, measurement_noise=0.0, n_replicas=None,
+                            rng=None) -> Simulation:
     r"""Damped harmonic oscillators driven by white noise (a null model: no limit cycle).
 
     Each unit is narrow-band Gaussian noise centred near ``freqs``: it looks rhythmic,
@@ -131,7 +132,7 @@ def damped_noise_oscillator(n_units, duration, fs, *, freqs, coupling=0.0, dampi
     F = np.array(Fs)      # (R or 1, 2N, 2N)
     Lq = np.array(Ls)
     L0 = np.array(L0s)
-    streams = replica_streams(rng, R)
+    streams = replica_streams(rng, R, func=func)
     X = np.stack([L0[min(r, L0.shape[0] - 1)] @ streams[r][0].standard_normal(2 * N)
                   for r in range(R)])  # (R, 2N)
     out = np.empty((T, R, 2 * N))

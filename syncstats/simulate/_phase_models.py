@@ -136,7 +136,8 @@ def _phase_spec(N, omega, C, k_global, sigma, m, event_level=None):
                          build=build, sigma=sigma[None, :], initial=initial,
                          observe_signal=lambda st: np.cos(st[:, 0]),
                          observe_angle=lambda st: st[:, 0], angle_unwrapped=True,
-                         dt_max=dt_max, event_level=event_level)
+                         dt_max=dt_max, event_level=event_level, ivp_rtol=1e-10,
+                         ivp_atol=1e-10)
 
     def build(terms, scalar):
         ns, tt = _coupling_ns(terms, m)
@@ -153,7 +154,8 @@ def _phase_spec(N, omega, C, k_global, sigma, m, event_level=None):
                      build=build, sigma=sigma[:, None], initial=initial,
                      observe_signal=lambda st: np.cos(_unit_var(st, 1, 0)),
                      observe_angle=lambda st: _unit_var(st, 1, 0), angle_unwrapped=True,
-                     dt_max=dt_max, event_level=event_level)
+                     dt_max=dt_max, event_level=event_level, ivp_rtol=1e-10,
+                     ivp_atol=1e-10)
 
 
 def phase_oscillators(n_units, duration, fs, *, freqs, coupling=0.0, ratio=None, noise=0.0,
@@ -243,7 +245,7 @@ def phase_oscillators(n_units, duration, fs, *, freqs, coupling=0.0, ratio=None,
         ratio, signed_freqs=True, large_n=True)
     omega = TWO_PI * f
     spec = _phase_spec(N, omega, C, is_global, sig, m)
-    streams = replica_streams(rng, R)
+    streams = replica_streams(rng, R, func=func)
     signals, phases, events, params = run_model(
         spec, n_samples=T, fs=fs, n_rep=R, streams=streams,
         coupling=C if C is not None else np.zeros((is_global.size, 1, 1)),
@@ -288,7 +290,8 @@ def _sl_spec(N, omega, lam, C, sigma, m):
                      build=build, sigma=sigma[:, None], initial=initial,
                      observe_signal=lambda st: zs(st).real,
                      observe_angle=lambda st: np.angle(zs(st)), dt_max=dt_max,
-                     complex_state=True, ivp_method="DOP853")
+                     complex_state=True, ivp_method="DOP853", ivp_rtol=1e-8,
+                     ivp_atol=1e-10)
 
 
 def stuart_landau(n_units, duration, fs, *, freqs, coupling=0.0, ratio=None,
@@ -345,7 +348,7 @@ def stuart_landau(n_units, duration, fs, *, freqs, coupling=0.0, ratio=None,
         ratio)
     lam = check_vector(amplitude_relaxation, N, "amplitude_relaxation", func, positive=True)
     spec = _sl_spec(N, TWO_PI * f, lam, C, sig, m)
-    streams = replica_streams(rng, R)
+    streams = replica_streams(rng, R, func=func)
     signals, phases, events, params = run_model(
         spec, n_samples=T, fs=fs, n_rep=R, streams=streams, coupling=C,
         integrator=integrator, dt=dt, measurement_noise=meas, func=func)
@@ -384,7 +387,7 @@ def _qp_spec(N, omega1, omega2, amp2, C, sigma, m):
                      build=build, sigma=np.repeat(sigma, 2)[:, None],
                      initial=initial, observe_signal=observe_signal,
                      observe_angle=lambda st: _unit_var(st, 2, 0), angle_unwrapped=True,
-                     dt_max=1.0 / (100.0 * fmax))
+                     dt_max=1.0 / (100.0 * fmax), ivp_rtol=1e-10, ivp_atol=1e-10)
 
 
 def quasi_periodic(n_units, duration, fs, *, freqs, coupling=0.0, ratio=None,
@@ -435,7 +438,7 @@ def quasi_periodic(n_units, duration, fs, *, freqs, coupling=0.0, ratio=None,
     rho = check_real(second_freq_ratio, "second_freq_ratio", func, low=0, low_open=True)
     a2 = check_vector(second_amplitude, N, "second_amplitude", func, nonneg=True)
     spec = _qp_spec(N, TWO_PI * f, TWO_PI * f * rho, a2, C, sig, m)
-    streams = replica_streams(rng, R)
+    streams = replica_streams(rng, R, func=func)
     signals, phases, events, params = run_model(
         spec, n_samples=T, fs=fs, n_rep=R, streams=streams, coupling=C,
         integrator=integrator, dt=dt, measurement_noise=meas, func=func)

@@ -43,6 +43,8 @@ class ModelSpec:
     fullres_angle: bool = False
     complex_state: bool = False
     ivp_method: str = "DOP853"
+    ivp_rtol: float = 1e-6
+    ivp_atol: float = 1e-8
     event_level: float | None = None
     event_units: tuple | None = None
     inputs: Callable | None = None
@@ -115,7 +117,7 @@ def integrate_spec(spec: ModelSpec, *, n_steps: int, h: float, every: int, n_out
     else:
         solve_ivp_run(drift, x0, dt=h, n_steps=n_steps, sink=rec, inputs=spec.inputs,
                       n_inputs=spec.n_inputs, complex_state=spec.complex_state,
-                      method=spec.ivp_method)
+                      method=spec.ivp_method, rtol=spec.ivp_rtol, atol=spec.ivp_atol)
     return rec
 
 
@@ -142,5 +144,6 @@ def run_model(spec: ModelSpec, *, n_samples: int, fs: float, n_rep: int, streams
     events = rec.events() if spec.event_level is not None else None
     params = {"integrator": integrator, "dt_s": h, "substeps": k,
               "scheme": ("stochastic Heun, fixed step" if integrator == "fixed"
-                         else f"scipy.integrate.solve_ivp ({spec.ivp_method})")}
+                         else f"scipy.integrate.solve_ivp ({spec.ivp_method}, rtol "
+                              f"{spec.ivp_rtol:g}, atol {spec.ivp_atol:g})")}
     return signals, rec.phases, events, params

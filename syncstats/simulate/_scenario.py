@@ -27,8 +27,10 @@ SCENARIO_KINDS = ("phase", "stuart_landau", "van_der_pol", "spiking", "beats",
 DIRECTIONS = ("mutual", "a_to_b", "b_to_a")
 
 # Defaults per kind. ``noise`` is in the unit of the model's ``noise`` argument (phase
-# models rad/sqrt(s); waveform models model units per sqrt(model time)); the waveform
-# values give roughly the phase diffusion of the phase model's 0.15 rad/sqrt(s) at 1 Hz.
+# models rad/sqrt(s); waveform models model units per sqrt(model time)). The van der Pol
+# and FitzHugh-Nagumo values give roughly the phase diffusion of the phase model's
+# 0.15 rad/sqrt(s) at 1 Hz (about 0.02 rad^2/s); Roessler's own chaos already diffuses
+# its phase (about 0.005 rad^2/s), so it gets little extra noise.
 _KINDS = {
     "phase": dict(freq=1.0, noise=0.15, measurement_noise=0.2, coupling_units="rad/s"),
     "stuart_landau": dict(freq=1.0, noise=0.14, measurement_noise=0.2,
@@ -41,7 +43,7 @@ _KINDS = {
                   direction="b_to_a", coupling_units="rad/s"),
     "quasi_periodic": dict(freq=1.0, noise=0.15, measurement_noise=0.2,
                            coupling_units="rad/s"),
-    "rossler": dict(freq=1.0, noise=0.05, measurement_noise=0.1, k0=0.01,
+    "rossler": dict(freq=1.0, noise=0.02, measurement_noise=0.1, k0=0.01,
                     coupling_units="model units (1/model time)"),
     "damped_noise": dict(freq=1.0, noise=None, measurement_noise=0.1, coupling=0.2,
                          coupling_units="dimensionless (force omega0^2 K (x_j - x_i))"),
@@ -196,7 +198,8 @@ def _label_run(kind, model_params, fa, fb, p, q, kab, kba, extra):
                          coupling=C, integrator="fixed")
     t = np.arange(n_out) / fs_lab
     lab = strobe_label(t, rec.phases[0, 0], rec.phases[0, 1], ratio=(p, q),
-                       transient_cycles=_TRANSIENT_CYCLES * fb / f_slow)
+                       transient_cycles=_TRANSIENT_CYCLES * fb / f_slow,
+                       expected_cycles=_EVAL_CYCLES * fb / f_slow)
     lab["horizon_slow_cycles"] = _EVAL_CYCLES
     return lab
 
@@ -233,9 +236,10 @@ def _calibrate(kind, model_params, fa, fb, p, q, direction, extra):
     return k0 * 2.0 ** (choice / 2.0), tried
 
 
-# Ladder index chosen by :func:`_calibrate` for the default detuning (3 %); found with
-# the ladder itself (tests/unit/test_simulate.py re-derives some of them). They only
-# save start-up time: the truth label is still computed by a noise-free run.
+# Ladder index chosen by :func:`_calibrate` for the default detuning (3 %) and default
+# model parameters (the dynamics in model time do not depend on ``freq``); found with the
+# ladder itself (tests/unit/test_simulate.py re-derives some of them). They only save
+# start-up time: the truth label is still computed by a noise-free run.
 _PRESETS = {
     ("van_der_pol", 1, 1, "mutual", 0.03): 6,
     ("van_der_pol", 2, 1, "mutual", 0.03): 10,
@@ -253,7 +257,8 @@ def _ladder_strength(kind, model_params, fa, fb, p, q, direction, detuning, extr
     key = (kind, p, q, direction, round(detuning, 9))
     k0 = _KINDS[kind]["k0"]
     ma, mb = _mask(direction)
-    if key in _PRESETS:
+    defaults = tuple(sorted(_model_params(_MODEL_OF_KIND[kind], func).items()))
+    if key in _PRESETS and model_params == defaults:
         K = k0 * 2.0 ** (_PRESETS[key] / 2.0)
         if _label_run(kind, model_params, fa, fb, p, q, K * ma, K * mb, extra)["locked"]:
             return K, "preset ladder step (2x the smallest locking strength)"
@@ -311,6 +316,7 @@ def _plan(kind, coupled, ratio, duration, fs, freq, detuning, coupling, directio
             if k_ not in allowed:
                 _fail(f"{func}: option {k_!r} is not used by kind {kind!r}; accepted: "
                       f"{', '.join(allowed) or 'none'}.")
+            options[k_] = check_real(options[k_], k_, func)
         if kind == "stuart_landau":
             options.setdefault("amplitude_relaxation", 1.0)
         if kind == "beats":
@@ -401,8 +407,9 @@ def _describe(kind, names, fa, fb, p, q, K, direction, units, truth, noise, meas
            f"{arrow} coupled with strength {K:.4g} {units}")
     lab = ("LOCKED at %d:%d (%s completes %d cycles while %s completes %d)"
            % (p, q, names[0], p, names[1], q) if truth["locked"] else "NOT locked")
+    nz = "default (unit-SD output)" if noise is None else f"{noise:g}"
     return (f"Two {what}: {names[0]} at {fa:.4g} Hz and {names[1]} at {fb:.4g} Hz "
-            f"(natural frequencies), {cpl}. Intrinsic noise {noise}, measurement noise "
+            f"(natural frequencies), {cpl}. Intrinsic noise {nz}, measurement noise "
             f"{meas:g} x signal SD. Truth: {lab} (label from {truth['method']}).")
 
 
@@ -427,7 +434,7 @@ def _simulate(kind, names, fa, fb, p, q, C, params, n_replicas, rng):
         return damped_noise_oscillator(2, dur, fs, noise=noise, **common, **opts)
     return beat_train(dur, fs, heart_freq=fa, breath_freq=fb, ratio=(p, q),
                       coupling=float(C[0, 1]), rsa=opts["rsa"], heart_noise=noise,
-                      breath_noise=noise, measurement_noise=meas, ecg=True,
+                      breath_noise=0.5 * noise, measurement_noise=meas, ecg=True,
                       n_replicas=n_replicas, rng=rng)
 
 

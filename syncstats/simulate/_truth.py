@@ -80,31 +80,42 @@ def adler_prediction(freqs, coupling, *, ratio=(1, 1)) -> dict:
             "ratio": (p, q)}
 
 
-def strobe_label(t, phase_a, phase_b, *, ratio, transient_cycles: float) -> dict:
+def strobe_label(t, phase_a, phase_b, *, ratio, transient_cycles: float,
+                 expected_cycles: float | None = None) -> dict:
     """Label a noise-free run as locked / not locked at ``ratio``.
 
     psi = q phi_A - p phi_B is sampled stroboscopically each time B completes a cycle
     (so B's waveform and any non-uniformity of its protophase do not enter). The run
-    is labelled locked when, after ``transient_cycles`` cycles of B, the sampled psi
-    spans less than pi -- i.e. no phase slip occurred. Returns the label, the span,
-    the number of evaluated cycles and the rotation number (cycles of A per cycle of
-    B over the evaluated part).
+    is labelled locked when, after ``transient_cycles`` cycles of B,
+
+    * the sampled psi spans less than pi (no phase slip), and
+    * A completes p/q cycles per cycle of B (rotation number within 1 %), and
+    * B completed at least 80 % of ``expected_cycles`` (otherwise its angle did not
+      rotate as a phase should, e.g. when strong coupling pushes a chaotic unit off its
+      rotation centre, and no phase -- hence no locking -- is defined).
+
+    Returns the label and the numbers behind it.
     """
     p, q = ratio
     phb = np.maximum.accumulate(phase_b)
     k0 = math.ceil((phb[0]) / TWO_PI + transient_cycles)
     k1 = math.floor(phb[-1] / TWO_PI)
-    if k1 - k0 < 5:
-        return {"locked": False, "psi_span": math.nan, "n_cycles": max(k1 - k0, 0),
-                "rotation_number": math.nan}
+    out = {"locked": False, "psi_span": math.nan, "n_cycles": max(k1 - k0, 0),
+           "rotation_number": math.nan, "reason": ""}
+    if k1 - k0 < 5 or (expected_cycles is not None and k1 - k0 < 0.8 * expected_cycles):
+        out["reason"] = "phase of B did not complete the expected number of cycles"
+        return out
     levels = TWO_PI * np.arange(k0, k1 + 1)
     tk = np.interp(levels, phb, t)
     pa = np.interp(tk, t, phase_a)
     psi = q * pa - p * levels
     span = float(psi.max() - psi.min())
     rot = float((pa[-1] - pa[0]) / (levels[-1] - levels[0]))
-    return {"locked": bool(span < math.pi), "psi_span": span,
-            "n_cycles": int(k1 - k0), "rotation_number": rot}
+    rot_ok = abs(rot - p / q) <= 0.01 * p / q
+    out.update(psi_span=span, rotation_number=rot, locked=bool(span < math.pi and rot_ok),
+               reason="" if span < math.pi and rot_ok else
+               ("phase slips" if not span < math.pi else "rotation number is not p/q"))
+    return out
 
 
 def _cycle_phase(phase):

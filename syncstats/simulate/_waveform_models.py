@@ -19,7 +19,7 @@ from functools import lru_cache
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from ._common import (_fail, check_choice, check_real, check_vector, coupling_summary,
+from ._common import (Simulation, _fail, check_choice, check_real, coupling_summary,
                       replica_streams)
 from ._phase_models import _common_inputs, _finish
 from ._runner import ModelSpec, run_model
@@ -215,7 +215,7 @@ def _waveform_spec(model, p, f_hz, C_terms_unused, sigma_model):
         # time scale folded into the constants: fewer operations per step
         ns = {f"c_s{i}": float(s[i]) for i in range(N)}
         for i, j, k in terms:
-            ns[f"c_k{i}_{j}"] = k * s[i]
+            ns[f"c_k{i}_{j}"] = k * float(s[i])
         if model == "van_der_pol":
             ns.update({f"c_smu{i}": float(s[i] * p["mu"]) for i in range(N)})
             ns.update({f"c_ms{i}": float(-s[i] / p["mu"]) for i in range(N)})
@@ -280,7 +280,7 @@ def _run_waveform(model, func, n_units, duration, fs, freqs, coupling, noise,
         func, n_units, duration, fs, freqs, coupling, noise, measurement_noise, n_replicas)
     p = _model_params(model, func, **params)
     spec = _waveform_spec(model, p, f, None, sig)
-    streams = replica_streams(rng, R)
+    streams = replica_streams(rng, R, func=func)
     signals, phases, events, rp = run_model(
         spec, n_samples=T, fs=fs, n_rep=R, streams=streams, coupling=C,
         integrator=integrator, dt=dt, measurement_noise=meas, func=func)
@@ -316,7 +316,7 @@ _SHARED = """
 
 def van_der_pol(n_units, duration, fs, *, freqs, coupling=0.0, mu=10.0, noise=0.0,
                 measurement_noise=0.0, n_replicas=None, dt=None, integrator="auto",
-                rng=None):
+                rng=None) -> Simulation:
     """Van der Pol oscillators, by default in the relaxation regime (mu = 10).
 
     Parameters
@@ -353,7 +353,7 @@ def van_der_pol(n_units, duration, fs, *, freqs, coupling=0.0, mu=10.0, noise=0.
 
 def fitzhugh_nagumo(n_units, duration, fs, *, freqs, coupling=0.0, current=0.5, a=0.7,
                     b=0.8, epsilon=0.08, noise=0.0, measurement_noise=0.0,
-                    n_replicas=None, dt=None, integrator="auto", rng=None):
+                    n_replicas=None, dt=None, integrator="auto", rng=None) -> Simulation:
     """FitzHugh-Nagumo units driven into periodic firing by a constant current.
 
     Parameters
@@ -392,7 +392,8 @@ def fitzhugh_nagumo(n_units, duration, fs, *, freqs, coupling=0.0, current=0.5, 
 
 
 def rossler(n_units, duration, fs, *, freqs, coupling=0.0, a=0.2, b=0.2, c=5.7, noise=0.0,
-            measurement_noise=0.0, n_replicas=None, dt=None, integrator="auto", rng=None):
+            measurement_noise=0.0, n_replicas=None, dt=None, integrator="auto",
+            rng=None) -> Simulation:
     """Roessler units in the phase-coherent chaotic regime (a = b = 0.2, c = 5.7).
 
     Parameters
