@@ -511,9 +511,9 @@ def analyze(
 
     # ---- surrogate method checks and the null distribution
     notes, method_warn = [], {}
-    null_level = _null_level(surrogate, kinds, pair_list, n_trials)
+    null_level = _null_level(surrogate, kinds, pair_list, n_trials) if n_surrogates > 0 else ""
     options = {}
-    if surrogate == "time_shift":
+    if surrogate == "time_shift" and n_surrogates > 0:
         ms = (5 * max(stride.values())) if min_shift_s is None else int(round(float(min_shift_s) * fs))
         if 2 * ms >= span_n:
             raise SyncstatsInputError(
@@ -522,7 +522,7 @@ def analyze(
         options["min_shift"] = ms
         if n_surrogates > span_n - 2 * ms:
             notes.append(f"time_shift: only {span_n - 2 * ms} distinct shifts exist for {n_surrogates} surrogates")
-    method_warn = _method_warnings(surrogate, raw, obs, fs, options, all_names)
+    method_warn = _method_warnings(surrogate, raw, obs, fs, options, all_names, evs) if n_surrogates > 0 else {}
     null = None
     if n_surrogates > 0:
         job = inf.NullJob(
@@ -762,11 +762,22 @@ def _level_note(level, method):
     }.get(level, f"null: {method}")
 
 
-def _method_warnings(method, raw, obs, fs, options, names):
+def _method_warnings(method, raw, obs, fs, options, names, evs=None):
     """Warnings when the chosen null is known to be weak or invalid for these data."""
     out = {}
     for n in names:
         w = []
+        if method == "interval_shuffle" and evs and n in evs and len(evs[n]) > 30:
+            from statsmodels.stats.diagnostic import acorr_ljungbox
+
+            iv = np.diff(evs[n])
+            lb = acorr_ljungbox(iv - iv.mean(), lags=[min(10, len(iv) // 4)], return_df=True)
+            pval = float(lb["lb_pvalue"].iloc[0])
+            if pval < 0.01:
+                w.append(
+                    f"{n}: its intervals are serially correlated (Ljung-Box p = {pval:.2g}); interval_shuffle "
+                    "destroys that and can call rate modulation locking; prefer time_shift"
+                )
         if method == "fourier" and n in raw:
             x = raw[n].reshape(-1)
             sk, ku = float(_st.skew(x)), float(_st.kurtosis(x))
