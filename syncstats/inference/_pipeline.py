@@ -8,9 +8,12 @@ pipeline:
 
 * signal level (``fourier``, ``aaft``, ``iaaft``, ``twin``, ``multivariate_fourier``):
   surrogates of the raw continuous signals -> detrend -> band-pass -> phase -> span;
-* phase level (``time_shift``): circular shifts of each signal's phase within the
-  analysed span (a shift of the raw signal commutes with the filter away from the
-  record ends, which the span leaves out); the first signal stays in place;
+* phase level (``time_shift``): each signal but the first is shifted against the
+  others by a random lag of at least ``min_shift`` samples and at most half the span,
+  forwards or backwards, and only the overlap is compared (samples without a partner
+  are NaN and left out of every measure). A circular shift would join the end of the
+  record to its start; for very regular rhythms that joint misaligns the two pieces
+  and makes the null too low, so it is avoided;
 * event level (``interval_shuffle``): shuffled inter-event intervals -> event phase;
 * trial level (``trial_shuffle``): trial i of one signal paired with trial j != i.
 
@@ -108,13 +111,16 @@ class NullJob:
             for k, n in enumerate(pl.names):
                 if k == 0:
                     continue  # the first signal stays; every other one is shifted
-                ph = pl.span(self.observed_full[n])  # (T, n): shifted within the span
-                rngs = child_generators(self.seed, start, stop, stream=k)
+                ph = pl.span(self.observed_full[n])  # (T, n)
                 n_samp = ph.shape[-1]
+                rngs = child_generators(self.seed, start, stop, stream=k)
                 shifts = np.array([g.integers(ms, n_samp - ms + 1) for g in rngs])
-                idx = (np.arange(n_samp)[None, :] - shifts[:, None]) % n_samp  # (b, n)
-                rolled = ph[:, idx].transpose(1, 0, 2)  # (b, T, n)
-                out[n] = np.unwrap(rolled, axis=-1)
+                src = np.arange(n_samp)[None, :] - shifts[:, None]  # (b, n); < 0: wrapped from the end
+                rolled = ph[:, src % n_samp].transpose(1, 0, 2)  # (b, T, n)
+                # phase-continuous joint: the part taken from the record's start continues
+                # the end's phase (advance over the span plus one mean step)
+                adv = ph[:, -1] - ph[:, 0] + (ph[:, -1] - ph[:, 0]) / (n_samp - 1)  # (T,)
+                out[n] = rolled + (src >= 0)[:, None, :] * adv[None, :, None]
         elif self.method == "interval_shuffle":
             for k, n in enumerate(pl.names):
                 if pl.kinds[n] != "events":
