@@ -497,6 +497,16 @@ def analyze(
             "of the slower rhythm: record longer or check the band."
         )
 
+    if windows is not None:
+        for a, b in ratio_map:
+            slow = min((a, b), key=lambda n: freqs[n])
+            wlen = min(w1 - w0 for w0, w1 in win) / fs
+            if wlen * freqs[slow] < 10:
+                raise SyncstatsInputError(
+                    f"windows of {wlen:g} s hold only {wlen * freqs[slow]:.1f} cycles of '{slow}' (pair {a}, {b}); "
+                    f"locking needs at least 10 cycles of the slower rhythm: use windows of at least "
+                    f"{np.ceil(10 / freqs[slow]):.0f} s or leave the pair out."
+                )
     rows = []
     for (a, b), rl in ratio_map.items():
         for p, q in rl:
@@ -775,15 +785,15 @@ def _method_warnings(method, raw, obs, fs, options, names, evs=None):
             pval = float(lb["lb_pvalue"].iloc[0])
             if pval < 0.01:
                 w.append(
-                    f"{n}: its intervals are serially correlated (Ljung-Box p = {pval:.2g}); interval_shuffle "
-                    "destroys that and can call rate modulation locking; prefer time_shift"
+                    f"{n}: its intervals are serially correlated (Ljung-Box p = {pval:.2g}), which interval_shuffle "
+                    "destroys, so rate modulation can pass for locking: prefer time_shift"
                 )
         if method == "fourier" and n in raw:
             x = raw[n].reshape(-1)
             sk, ku = float(_st.skew(x)), float(_st.kurtosis(x))
             if abs(sk) > 1 or ku > 2:
                 w.append(
-                    f"{n}: fourier surrogates are Gaussian but this signal is spiky (skewness {sk:.1f}, excess kurtosis {ku:.1f}); "
+                    f"{n}: fourier surrogates are Gaussian but this signal is spiky (skewness {sk:.1f}, excess kurtosis {ku:.1f}), "
                     "prefer iaaft"
                 )
         if method == "time_shift" and n in obs:
@@ -794,8 +804,8 @@ def _method_warnings(method, raw, obs, fs, options, names, evs=None):
                 c = float(np.abs(np.mean(np.exp(1j * (d - d.mean())))))
                 if c > 0.5:
                     w.append(
-                        f"{n}: rhythm so regular that its phase is predictable across the minimum shift (coherence {c:.2f}); "
-                        "time_shift then has little power"
+                        f"{n}: rhythm so regular that its phase is predictable across the minimum shift (coherence {c:.2f}), "
+                        "so time_shift has little power"
                     )
         if w:
             out[n] = w

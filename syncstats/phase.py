@@ -201,9 +201,9 @@ def diagnose(name: str, x, fs: float, phase: np.ndarray, amplitude, *, spec: Pha
         f0 = cycles / (ph.size / fs)
     w = []
     if np.isfinite(sharp) and sharp < THRESHOLDS["peak_sharpness"]:
-        w.append(f"{name}: broad spectrum (peak share {sharp:.2f}); the phase may not be meaningful")
+        w.append(f"{name}: broad spectrum (peak share {sharp:.2f}), so the phase may not be meaningful")
     if near0 > THRESHOLDS["near_zero_amplitude_share"]:
-        w.append(f"{name}: amplitude near zero in {100 * near0:.1f}% of samples; phase slips likely")
+        w.append(f"{name}: amplitude near zero in {100 * near0:.1f}% of samples, so phase slips are likely")
     if back > THRESHOLDS["backward_step_share"]:
         w.append(f"{name}: phase runs backwards in {100 * back:.1f}% of steps")
     if cycles < THRESHOLDS["min_cycles"]:

@@ -179,6 +179,7 @@ def _rank_key(rows: pd.DataFrame, measure_order: list) -> pd.DataFrame:
             "praw": rows["p_value"].astype(float).fillna(np.inf),
             "mrank": rows["measure"].map(lambda m: order.get(m, len(order))),
             "negz": -rows["z"].astype(float).fillna(-np.inf),
+            "nege": -rows["effect"].astype(float).fillna(-np.inf),
             "negv": -rows["value"].astype(float).fillna(-np.inf),
         },
         index=rows.index,
@@ -188,11 +189,13 @@ def _rank_key(rows: pd.DataFrame, measure_order: list) -> pd.DataFrame:
 
 def best_row(rows: pd.DataFrame, measure_order: list):
     """Significant first, then smallest corrected p, smallest raw p, preferred measure,
-    largest z, largest value."""
+    largest effect (value above its null mean: when p-values sit at their floor 1/(1+S),
+    z is dominated by a tiny null spread, the effect is what a reader compares), largest
+    value."""
     if rows.empty:
         return None
     key = _rank_key(rows, measure_order)
-    key = key.sort_values(["not_sig", "padj", "praw", "mrank", "negz", "negv"], kind="stable")
+    key = key.sort_values(["not_sig", "padj", "praw", "mrank", "nege", "negv"], kind="stable")
     return rows.loc[key.index[0]]
 
 

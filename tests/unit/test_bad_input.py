@@ -60,6 +60,7 @@ CASES = [
     ("interval-shuffle-without-events", {"a": A, "b": B}, {"surrogate": "interval_shuffle"}, ["interval_shuffle", "event"]),
     ("trial-shuffle-single-trial", {"a": A, "b": B}, {"surrogate": "trial_shuffle"}, ["trial_shuffle", "trials"]),
     ("window-outside", {"a": A, "b": B}, {"windows": [(0.0, 500.0)]}, ["window", "outside"]),
+    ("window-too-few-cycles", {"a": A, "b": B}, {"windows": 5.0}, ["5 s", "at least 10 cycles", "windows of at least"]),
     ("negative-seed", {"a": A, "b": B}, {"rng": -3}, ["seed", "non-negative"]),
 ]
 

@@ -68,6 +68,8 @@ def test_diagnostics_flag_noise_and_pass_a_clean_rhythm():
     ph, amp = estimate_phase(noise, fs, spec_n)
     d = diagnose("noise", noise, fs, ph, amp, spec=spec_n)
     assert any("broad spectrum" in w for w in d.warnings)
+    # the table joins warnings with "; ", so no single warning may contain ";"
+    assert all(";" not in w for w in d.warnings)
     short = clean[: int(5 * fs)]
     ph, amp = estimate_phase(short, fs, spec)
     assert any("cycles" in w for w in diagnose("short", short, fs, ph, amp, spec=spec).warnings)

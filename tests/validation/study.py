@@ -10,7 +10,7 @@ sample of the phase difference is the contrast row.
 The reduced size runs in the default test suite (``test_calibration.py``); the full
 size regenerates ``docs/validation.md``:
 
-    python -m tests.validation.study            # full size, about 45 min on 2 cores
+    python -m tests.validation.study            # full size, about an hour on 2 cores
     python -m tests.validation.study --quick    # a few minutes, prints the table only
 
 The binomial 99 % band for the FPR is ``scipy.stats.binom.ppf([0.005, 0.995], R, alpha)/R``
@@ -196,7 +196,7 @@ def main(argv=None):
     ap.add_argument("--out", default=str(Path(__file__).resolve().parents[2] / "docs" / "validation.md"))
     a = ap.parse_args(argv)
     size = dict(replicas=40, heavy_replicas=20, n_surrogates=39) if a.quick else dict(
-        replicas=200, heavy_replicas=60, n_surrogates=99)
+        replicas=200, heavy_replicas=60, n_surrogates=39)
     rows = run_study(workers=a.workers, **size)
     if not a.quick:
         write_markdown(rows, Path(a.out), **size)
