@@ -69,7 +69,8 @@ class Family:
                 out.append(M.plv(_flat(psi)))
             elif r.measure == "ppc":
                 s = self.stride[(r.a, r.b, r.p, r.q)]
-                out.append(M.ppc(_flat(psi[..., s // 2 :: s])))
+                n = psi.shape[-1] // s * s  # whole cycles in each trial, then trials pooled
+                out.append(M.cycle_ppc(_flat(psi[..., :n]), s))
             elif r.measure == "entropy_index":
                 out.append(M.entropy_index(_flat(psi)))
             elif r.measure == "conditional_index":
@@ -104,12 +105,14 @@ class Family:
             st = np.concatenate([blk.sum(axis=1), np.full((blk.shape[0], 1), blk.shape[1])], axis=1)
             return st, lambda z: np.hypot(z[..., 0], z[..., 1]) / z[..., 2]
         if row.measure == "ppc":
-            one = psi[..., s // 2 :: s].reshape(-1)
-            st = np.stack([np.cos(one), np.sin(one), np.ones_like(one)], axis=-1)
+            e = np.exp(1j * psi)
+            blk = _blocks(np.stack([e.real, e.imag], axis=-1), s)
+            z = blk.mean(axis=1)  # cycle-mean phasors (n_blocks, 2)
+            st = np.column_stack([z, (z**2).sum(axis=1), np.ones(len(z))])
 
-            def fn(z):
-                n = z[..., 2]
-                return ((z[..., 0] ** 2 + z[..., 1] ** 2) / n - 1.0) / (n - 1.0)
+            def fn(v):
+                n = v[..., 3]
+                return (v[..., 0] ** 2 + v[..., 1] ** 2 - v[..., 2]) / (n * (n - 1.0))
 
             return st, fn
         if row.measure == "entropy_index":

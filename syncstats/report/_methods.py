@@ -47,8 +47,9 @@ REFERENCES = {
 _MEASURE_TEXT = {
     "plv": ("the phase-locking value (PLV, the length of the time average of the unit vector exp(iψ))",
             ["mormann2000"]),
-    "ppc": ("the pairwise phase consistency (PPC, an estimate of the squared PLV that is "
-            "unbiased by the number of samples)", ["vinck2010"]),
+    "ppc": ("the pairwise phase consistency (PPC: the mean over all pairs of different cycles "
+            "of the product of their cycle-mean phasors, an estimate of the squared PLV that is "
+            "not biased by the number of cycles)", ["vinck2010"]),
     "entropy_index": ("the Shannon-entropy index of the distribution of ψ", ["tass1998"]),
     "conditional_index": ("the conditional-probability (stroboscopic) index", ["tass1998"]),
     "order_parameter": ("the Kuramoto order parameter of the group", ["allefeld2004"]),

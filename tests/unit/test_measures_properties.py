@@ -73,3 +73,19 @@ def test_auto_ratios():
     assert M.auto_ratios(1.2, 0.3)[0] == (4, 1)
     assert (9, 2) in M.auto_ratios(1.12, 0.25) and all(np.gcd(p, q) == 1 for p, q in M.auto_ratios(1.12, 0.25))
     assert M.auto_ratios(1.0, 1.0)[0] == (1, 1)
+
+
+def test_cycle_ppc_reduces_to_vinck_ppc_and_has_no_stroboscopic_artefact():
+    rng = np.random.default_rng(4)
+    psi = rng.vonmises(0.3, 2.0, 500)
+    assert np.isclose(M.cycle_ppc(psi, 1), M.ppc(psi), atol=1e-12)  # unit phasors: Vinck 2010
+    # B at 0.25 Hz, A locked 4:1 at 1 Hz; sampled at 20 Hz, 80 samples per B cycle.
+    t = np.arange(0, 400, 0.05)
+    phi_b = 2 * np.pi * 0.25 * t + np.cumsum(rng.normal(0, 0.01, t.size))
+    phi_a = 4 * phi_b + 0.5 + rng.normal(0, 0.3, t.size)
+    s = 80
+    assert M.cycle_ppc(M.phase_difference(phi_a, phi_b, 4, 1), s) > 0.8
+    # the wrong ratio 5:1: psi turns once per B cycle -> no consistency
+    assert abs(M.cycle_ppc(M.phase_difference(phi_a, phi_b, 5, 1), s)) < 0.02
+    # whereas one sample per B cycle would have called 5:1 locked (the artefact avoided)
+    assert M.ppc(M.phase_difference(phi_a, phi_b, 5, 1)[::s]) > 0.5
