@@ -113,3 +113,19 @@ def test_demo_writes_all_four_files(tmp_path):
     assert len(first) == 1 and len(later) == 1
     assert first.value.iloc[0] > 0.7 and later.value.iloc[0] > 0.7
     assert "research software" in (out / "report.html").read_text().lower()
+
+
+def test_gaps_are_refused_or_split_into_recordings(sim_dir, tmp_path, capsys):
+    df = pd.read_csv(sim_dir / "recording.csv")
+    df.loc[3000:3050, "A"] = np.nan  # a 2.5 s gap at 150 s
+    src = tmp_path / "gappy.csv"
+    df.to_csv(src, index=False)
+    assert main(["analyze", str(src), "--n-surrogates", "0", "--out", str(tmp_path / "a")]) == 2
+    err = capsys.readouterr().err
+    assert "gappy.csv" in err and "gaps" in err
+    out = tmp_path / "b"
+    assert main(["analyze", str(src), "--gaps", "split", "--surrogate", "fourier", "--n-surrogates", "19", "--seed", "2",
+                 "--n-bootstrap", "0", "--out", str(out), "--quiet"]) == 0
+    tab = pd.read_csv(out / "results.csv")
+    assert sorted(tab.recording.unique()) == ["gappy#1", "gappy#2"]
+    assert tab.groupby("recording").family.first().str.startswith("1 tests").all()  # one family per recording
