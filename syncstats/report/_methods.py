@@ -322,7 +322,14 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
              + f" under the null hypothesis that {_NULL_TEXT.get(sur, _NULL_TEXT[''])}.")
         para.append(s)
         nl = str(params.get("null_level") or "")
-        if nl in _NULL_LEVEL_TEXT:
+        kinds = params.get("kinds") or {}
+        if nl == "phase" and kinds and "phase" not in set(kinds.values()):
+            # phases computed by syncstats itself: a shift or re-pairing commutes with it
+            para.append("Surrogates were made from the phases computed above; a time shift or a "
+                        "re-pairing of trials commutes with the zero-phase filter away from the "
+                        "record ends, which were discarded, so the filtering is the same for data "
+                        "and surrogates.")
+        elif nl in _NULL_LEVEL_TEXT:
             para.append(_NULL_LEVEL_TEXT[nl])
         para.append("The p-value of each test was (1 + k)/(1 + S), where k is the number of the "
                     "S surrogates whose value reached the observed one, so p is never zero"
