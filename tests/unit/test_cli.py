@@ -129,3 +129,30 @@ def test_gaps_are_refused_or_split_into_recordings(sim_dir, tmp_path, capsys):
     tab = pd.read_csv(out / "results.csv")
     assert sorted(tab.recording.unique()) == ["gappy#1", "gappy#2"]
     assert tab.groupby("recording").family.first().str.startswith("1 tests").all()  # one family per recording
+
+
+def test_analyze_an_edf_recording_with_beat_annotations(tmp_path):
+    # an EDF+ file written by pyedflib (the format's own library): a breathing-like trace
+    # and R-peak annotations of a simulated beat train locked 4:1 to it
+    pyedflib = pytest.importorskip("pyedflib")
+    from syncstats.simulate import scenario
+
+    sc = scenario("beats", coupled=True, duration=200.0, fs=20.0, rng=4)
+    breath = sc.signals["breath"] / np.max(np.abs(sc.signals["breath"]))
+    path = tmp_path / "night.edf"
+    w = pyedflib.EdfWriter(str(path), 1, file_type=pyedflib.FILETYPE_EDFPLUS)
+    w.setSignalHeaders([dict(label="resp", dimension="au", sample_frequency=20.0, physical_max=1.5,
+                             physical_min=-1.5, digital_max=32767, digital_min=-32768)])
+    w.writeSamples([breath])
+    for t in sc.events["heart"]:
+        w.writeAnnotation(float(t), -1, "R")
+    w.close()
+    out = tmp_path / "res"
+    # the pair is named so that 4:1 reads "R makes 4 beats while resp makes 1 cycle"
+    assert main(["analyze", str(path), "--annotation", "R", "--pair", "R", "resp", "--ratios", "4:1,5:1",
+                 "--surrogate", "iaaft",
+                 "--n-surrogates", "39", "--seed", "1", "--n-bootstrap", "0", "--out", str(out), "--quiet"]) == 0
+    tab = pd.read_csv(out / "results.csv")
+    assert set(tab.signal_a) == {"R"} and set(tab.signal_b) == {"resp"}
+    four = tab[tab.ratio == "4:1"].iloc[0]
+    assert four.value > 0.8 and four.significant
