@@ -10,6 +10,7 @@ import argparse
 import json
 import sys
 import tomllib
+import warnings
 from pathlib import Path
 
 from ._errors import SyncstatsInputError
@@ -296,12 +297,28 @@ def _run_simulate(args):
     return 0
 
 
+def _plain_warnings():
+    """Show analysis warnings as one plain line each on stderr (no file/line noise)."""
+    from ._errors import SyncstatsWarning
+
+    def show(message, category, filename, lineno, file=None, line=None):
+        if issubclass(category, SyncstatsWarning):
+            print(f"syncstats: warning: {message}", file=sys.stderr)
+        else:
+            sys.__stderr__.write(warnings.formatwarning(message, category, filename, lineno, line))
+
+    warnings.showwarning = show
+    warnings.simplefilter("default", SyncstatsWarning)
+
+
 def main(argv=None) -> int:
     """Entry point of the ``syncstats`` command; returns the exit status."""
     argv = sys.argv[1:] if argv is None else list(argv)
     debug = "--debug" in argv
     argv = [a for a in argv if a != "--debug"]
     parser = _build_parser()
+    saved = warnings.showwarning
+    _plain_warnings()
     try:
         if not argv:
             parser.print_help(sys.stderr)
@@ -327,6 +344,8 @@ def main(argv=None) -> int:
             file=sys.stderr,
         )
         return 1
+    finally:
+        warnings.showwarning = saved
 
 
 if __name__ == "__main__":  # pragma: no cover
