@@ -107,6 +107,15 @@ def _rank_remap(target_sorted: np.ndarray, order_source: np.ndarray) -> np.ndarr
     return out
 
 
+def _randomised_phases(x, rngs, func: str, *, shared: bool) -> np.ndarray:
+    """Validated input -> phase-randomised surrogates (independent or shared phases)."""
+    x2, _ = _as_channels(x, func)
+    rngs = _check_rngs(rngs, func)
+    c, n = x2.shape
+    spec = sfft.rfft(x2, axis=-1, workers=-1)
+    return _phase_randomise(spec[None], _rotations(rngs, c, n, shared=shared), n)
+
+
 def fourier(x, rngs) -> np.ndarray:
     """Phase-randomised (FT) surrogates, each channel randomised independently.
 
@@ -147,11 +156,7 @@ def fourier(x, rngs) -> np.ndarray:
     >>> bool(np.allclose(np.abs(np.fft.rfft(s[0, 0])), np.abs(np.fft.rfft(x))))
     True
     """
-    x2, _ = _as_channels(x, "fourier")
-    rngs = _check_rngs(rngs, "fourier")
-    c, n = x2.shape
-    spec = sfft.rfft(x2, axis=-1, workers=-1)
-    return _phase_randomise(spec[None], _rotations(rngs, c, n, shared=False), n)
+    return _randomised_phases(x, rngs, "fourier", shared=False)
 
 
 def multivariate_fourier(x, rngs) -> np.ndarray:
@@ -194,11 +199,7 @@ def multivariate_fourier(x, rngs) -> np.ndarray:
     >>> bool(np.allclose(S[0] * np.conj(S[1]), X[0] * np.conj(X[1])))
     True
     """
-    x2, _ = _as_channels(x, "multivariate_fourier")
-    rngs = _check_rngs(rngs, "multivariate_fourier")
-    c, n = x2.shape
-    spec = sfft.rfft(x2, axis=-1, workers=-1)
-    return _phase_randomise(spec[None], _rotations(rngs, c, n, shared=True), n)
+    return _randomised_phases(x, rngs, "multivariate_fourier", shared=True)
 
 
 def aaft(x, rngs) -> np.ndarray:
