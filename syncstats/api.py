@@ -331,7 +331,7 @@ def analyze(
         raise SyncstatsInputError("event lists cannot be combined with multi-trial signals; analyse trials as signals.")
 
     # ---- phase specs fixed on the data (reused unchanged for every surrogate)
-    specs, fallback_band = {}, {}
+    specs = {}
     for n in raw:
         method = phase_method.get(n, "hilbert") if isinstance(phase_method, Mapping) else phase_method
         if method not in ("hilbert", "wavelet"):
@@ -346,10 +346,7 @@ def analyze(
                     f"signal '{n}': no spectral peak to centre a band on; give bands={{'{n}': (low_hz, high_hz)}}."
                 ) from None
         elif b is not None:
-            try:
-                b = _check_band(b, fs, where=f"band of signal '{n}'")
-            except SyncstatsInputError:
-                raise
+            b = _check_band(b, fs, where=f"band of signal '{n}'")
         freq = None
         if method == "wavelet":
             freq = float(np.sqrt(b[0] * b[1])) if b is not None else spectral_peak(x0, fs)[0]
@@ -589,10 +586,7 @@ def analyze(
             pref = float(M.preferred_phase(psi.reshape(-1)))
             ncyc = min(_cycles(obs[r.a][..., w_sl]), _cycles(obs[r.b][..., w_sl]))
             key = (r.a, r.b, r.p, r.q)
-            if key not in psi_d and (r.w0, r.w1) == win[0] and len(win) == 1:
-                step = max(1, stride[key] // 20)
-                psi_d[key] = np.angle(np.exp(1j * psi.reshape(-1)[::step]))
-            elif key not in psi_d and len(win) > 1:
+            if key not in psi_d:  # whole span, ~20 samples a slow cycle, for the report's rose
                 full_psi = M.phase_difference(obs[r.a], obs[r.b], r.p, r.q)
                 psi_d[key] = np.angle(np.exp(1j * full_psi.reshape(-1)[:: max(1, stride[key] // 20)]))
         else:
@@ -601,7 +595,7 @@ def analyze(
         rng_i = np.random.default_rng(np.random.SeedSequence(boot_seq.entropy, spawn_key=tuple(boot_seq.spawn_key) + (i,)))
         lo = hi = plo = phi_ = float("nan")
         if n_bootstrap:
-            bst, fn = family.block_stats({k: v for k, v in obs.items()}, r)
+            bst, fn = family.block_stats(obs, r)
             lo, hi = inf.block_ci(bst, fn, n_resamples=n_bootstrap, level=float(ci_level), method=ci_method, rng=rng_i)
             if r.kind == "pair" and r.measure == "plv":
                 plo, phi_ = inf.angle_ci(bst, n_resamples=n_bootstrap, level=float(ci_level), rng=rng_i)

@@ -7,7 +7,6 @@ file/signal/option at fault and what to do; a traceback only with ``--debug``);
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 import tomllib
 import warnings

@@ -13,7 +13,7 @@ from scipy import fft as spfft
 from scipy import signal as sps
 
 from ._errors import SyncstatsInputError
-from .prep import auto_band, bandpass, detrend, spectral_peak
+from .prep import bandpass, detrend, spectral_peak
 
 __all__ = [
     "PhaseSpec",

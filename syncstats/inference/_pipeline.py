@@ -28,7 +28,7 @@ import numpy as np
 
 from .. import nulls
 from .._rng import child_generators
-from ..phase import PhaseSpec, estimate_phase, event_phase
+from ..phase import estimate_phase, event_phase
 from ._family import Family
 
 __all__ = ["Pipeline", "NullJob", "SIGNAL_LEVEL", "PHASE_LEVEL", "EVENT_LEVEL", "TRIAL_LEVEL"]

@@ -18,7 +18,6 @@ What each null concludes, and why:
 """
 import warnings
 
-import numpy as np
 import pytest
 import statsmodels.api as sm
 
