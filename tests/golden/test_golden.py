@@ -1,0 +1,23 @@
+"""The refactoring guard: every frozen analysis (tests/golden/cases.py) reproduces its
+stored table exactly. Internal consistency, not an outside check: it shows that a change
+of structure did not change a number. When a change deliberately alters results, rewrite
+the tables (``python -m tests.golden.cases``) and say why in the commit and in
+``DELIBERATE`` below."""
+import warnings
+
+import pandas as pd
+import pytest
+
+from .cases import TABLES, cases, run_case
+
+#: cases whose stored table was rewritten on purpose, and why
+DELIBERATE = {}
+
+
+@pytest.mark.parametrize("name", sorted(cases()))
+def test_table_is_unchanged(name):
+    stored = pd.read_pickle(TABLES / f"{name}.pkl")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        now = run_case(name)
+    pd.testing.assert_frame_equal(now[stored.columns], stored, check_exact=True)
