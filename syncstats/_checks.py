@@ -85,7 +85,7 @@ def _ratio_term(v, raw):
         s = v.strip()
         if not s.isdigit():
             raise SyncstatsInputError(
-                f"ratio {raw!r} must be two positive whole numbers p:q (A makes p cycles while B makes q), e.g. 4:1."
+                f"ratio {raw!r} must be two positive integers p:q (A makes p cycles while B makes q), e.g. 4:1."
             )
         if len(s) > 3:
             raise SyncstatsInputError(
@@ -97,7 +97,7 @@ def _ratio_term(v, raw):
     if isinstance(v, Real) and math.isfinite(float(v)) and float(v).is_integer():
         return int(v)
     raise SyncstatsInputError(
-        f"ratio {raw!r} must be two positive whole numbers p:q (A makes p cycles while B makes q), e.g. 4:1."
+        f"ratio {raw!r} must be two positive integers p:q (A makes p cycles while B makes q), e.g. 4:1."
     )
 
 

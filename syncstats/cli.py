@@ -7,6 +7,7 @@ file/signal/option at fault and what to do; a traceback only with ``--debug``);
 from __future__ import annotations
 
 import argparse
+from dataclasses import replace
 import sys
 import tomllib
 import warnings
@@ -256,9 +257,11 @@ def _run_analyze(args):
             close()
         results.append(res)
     res = results[0] if len(results) == 1 else combine_results(results)
-    res.inputs = [str(Path(args.input))] + [str(Path(p)) for p in events.values()] + ([args.config] if args.config else [])
-    res.params["command"] = "analyze"
-    res.params["input"] = str(args.input)
+    res = replace(
+        res,
+        inputs=tuple([str(Path(args.input))] + [str(Path(p)) for p in events.values()] + ([args.config] if args.config else [])),
+        params={**res.params, "command": "analyze", "input": str(args.input)},
+    )
     out = res.save(args.out, overwrite=args.overwrite)
     _summary(res, out, args.quiet)
     return 0

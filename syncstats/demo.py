@@ -6,9 +6,7 @@ numpy/scipy), the readers/writers and ``analyze``.
 from __future__ import annotations
 
 import json
-import os
-import shutil
-import tempfile
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -66,32 +64,28 @@ def demo_analysis(*, n_surrogates: int = 199, rng=2026, progress=None) -> Analys
         **DEMO_SETTINGS,
     )
     truth = demo.truth
-    res.notes.insert(0, "demo data: " + str(truth.get("story", "")))
+    told = []
     for ep in truth.get("epochs", []):
         what = f"locked at {ep['ratio']}" if ep.get("locked") else "not locked"
         pair = " and ".join(ep.get("pair", []))
-        res.notes.append(f"truth: {pair} {what} from {ep['start_s']:g} s to {ep['end_s']:g} s")
-    res.params["command"] = "demo"
-    res.notes.append(f"demo: breath and slow_wave decimated from {demo.fs:g} Hz to {DEMO_FS:g} Hz before the analysis")
-    return res
+        told.append(f"truth: {pair} {what} from {ep['start_s']:g} s to {ep['end_s']:g} s")
+    told.append(f"demo: breath and slow_wave decimated from {demo.fs:g} Hz to {DEMO_FS:g} Hz before the analysis")
+    return replace(res, notes=("demo data: " + str(truth.get("story", "")),) + tuple(res.notes) + tuple(told),
+                   params={**res.params, "command": "demo"})
 
 
 def write_scenario(out, *, kind="stuart_landau", coupled=False, ratio="1:1", duration=300.0, fs=100.0, rng=0,
                    overwrite=False) -> Path:
     """Simulate a scenario and write ``recording.csv`` (time_s + signals), one event file
     per event train (``events_<name>.txt``) and ``truth.json`` into ``out`` atomically."""
+    from ._atomic import write_folder_atomically
+    from ._checks import parse_ratio
     from .io import Recording, write_events, write_recording_csv
-    from .measures import check_ratio
     from .simulate import scenario
 
-    out = Path(out)
-    if out.exists() and any(out.iterdir()) and not overwrite:
-        raise SyncstatsInputError(f"output folder '{out}' is not empty; choose a new folder or pass --overwrite.")
-    sc = scenario(kind, coupled=coupled, ratio=check_ratio(ratio), duration=duration, fs=fs, rng=rng)
-    parent = out.resolve().parent
-    parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=parent))
-    try:
+    sc = scenario(kind, coupled=coupled, ratio=parse_ratio(ratio), duration=duration, fs=fs, rng=rng)
+
+    def build(tmp: Path) -> None:
         write_recording_csv(Recording(name=kind, signals={k: np.asarray(v) for k, v in sc.signals.items()}, fs=sc.fs),
                             tmp / "recording.csv")
         for name, ev in (sc.events or {}).items():
@@ -99,14 +93,5 @@ def write_scenario(out, *, kind="stuart_landau", coupled=False, ratio="1:1", dur
         truth = {"kind": kind, "coupled": bool(coupled), "seed": rng, "fs": sc.fs, "description": sc.description,
                  "truth": {k: (list(v) if isinstance(v, tuple) else v) for k, v in dict(sc.truth).items()}}
         (tmp / "truth.json").write_text(json.dumps(truth, indent=2, default=str))
-        if out.exists():
-            old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old.", dir=parent))
-            os.replace(out, old / "x")
-            os.replace(tmp, out)
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            os.replace(tmp, out)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
-    return out
+
+    return write_folder_atomically(out, build, overwrite=overwrite)

@@ -6,7 +6,10 @@ Phases are unwrapped radians with time on the last axis.
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
+from functools import cached_property
 from math import gcd
+from typing import Callable
 
 import numpy as np
 
@@ -24,32 +27,10 @@ __all__ = [
     "conditional_index",
     "order_parameter",
     "auto_ratios",
-    "check_ratio",
+    "RowPhases",
+    "Measure",
+    "MEASURE_METHODS",
 ]
-
-#: pairwise measures accepted by ``analyze``; "order_parameter" is the group measure
-MEASURES = ("plv", "ppc", "entropy_index", "conditional_index", "order_parameter")
-
-
-def check_ratio(ratio) -> tuple[int, int]:
-    """Validate a ratio given as ``(p, q)`` or ``"p:q"``; returns the integer pair."""
-    raw = ratio
-    if isinstance(ratio, str):
-        parts = ratio.split(":")
-        if len(parts) != 2:
-            raise SyncstatsInputError(f"ratio {raw!r} must look like 'p:q' with positive integers, e.g. '4:1'.")
-        ratio = parts
-    try:
-        p, q = ratio
-        pf, qf = float(p), float(q)
-    except (TypeError, ValueError):
-        raise SyncstatsInputError(f"ratio {raw!r} must be a pair of positive integers (p, q), e.g. (4, 1).") from None
-    if not (pf.is_integer() and qf.is_integer()) or pf < 1 or qf < 1:
-        raise SyncstatsInputError(
-            f"ratio {raw!r} must be two positive integers p:q (A makes p cycles while B makes q), e.g. 4:1."
-        )
-    return int(pf), int(qf)
-
 
 def phase_difference(phi_a: np.ndarray, phi_b: np.ndarray, p: int = 1, q: int = 1) -> np.ndarray:
     """Generalized phase difference ``psi = q·phi_a − p·phi_b`` (unwrapped)."""
@@ -253,3 +234,193 @@ def auto_ratios(f_a: float, f_b: float, *, max_p: int = 12, max_q: int = 4, tol:
         d, q, p = cands[0]
         out = [(p, q)]
     return out
+
+
+# --------------------------------------------------------------------------- registry
+def _flat(x):
+    """(..., T, n) -> (..., T*n): trials and samples pooled (the measures are order-invariant)."""
+    return x.reshape(*x.shape[:-2], x.shape[-2] * x.shape[-1])
+
+
+class RowPhases:
+    """The phases one table row is computed from, on its window.
+
+    ``members`` are unwrapped phases of shape (..., T, n) (leading axes: a batch of
+    surrogates; T trials; n samples of the window): (A, B) for a pair, every unit for a
+    group. ``stride`` is the number of samples in one mean cycle of the slower rhythm
+    (the block length of cycle-based statistics). ``psi`` is computed once on demand.
+    """
+
+    def __init__(self, members, p: int = 1, q: int = 1, stride: int = 1, psi=None):
+        self.members = tuple(members)
+        self.p, self.q, self.stride = int(p), int(q), max(int(stride), 1)
+        if psi is not None:
+            self.__dict__["psi"] = psi
+
+    @cached_property
+    def psi(self):
+        return phase_difference(self.members[0], self.members[1], self.p, self.q)
+
+
+@dataclass(frozen=True)
+class Measure:
+    """One locking measure: how to compute it and how to describe it.
+
+    Attributes
+    ----------
+    name : str
+        Key accepted by ``analyze(measures=...)`` and written to the ``measure`` column.
+    label : str
+        Display name in the report.
+    kind : str
+        "pair" (one row per pair x ratio x window) or "group" (one row per window).
+    value : callable
+        ``value(RowPhases) -> (...)``: the measure, broadcast over leading axes.
+    block_stats : callable
+        ``block_stats(RowPhases) -> (stats (n_blocks, k), fn)`` for one record: additive
+        statistics per block of whole cycles and the function turning their sum into
+        the measure (``fn(stats.sum(0)) == value``), so a bootstrap resample is a sum.
+    description : str
+        Words for the methods text.
+    citations : tuple of str
+        Papers, as "Author (year). Journal volume:pages."
+    """
+
+    name: str
+    label: str
+    kind: str
+    value: Callable
+    block_stats: Callable
+    description: str
+    citations: tuple[str, ...]
+
+
+def _blocks(x, s):
+    """(T, n, k) -> (n_blocks, s, k): whole blocks of s samples inside each trial; the
+    incomplete tail of each trial is left out."""
+    t, n = x.shape[0], x.shape[1]
+    nb = n // s
+    if nb == 0:  # a span shorter than one cycle: each trial is one block
+        return x
+    return x[:, : nb * s].reshape(t * nb, s, x.shape[-1])
+
+
+def _block_bincount(idx, nb, s, weights=None):
+    """Per-block bin sums: idx (T, n) of bin numbers -> (n_blocks, nb)."""
+    t, n = idx.shape
+    nblk = max(n // s, 1)
+    s_eff = n // nblk if n // s == 0 else s
+    use = nblk * s_eff
+    blk = (np.arange(t)[:, None] * nblk + np.arange(use)[None, :] // s_eff)
+    flat = (blk * nb + idx[:, :use]).ravel()
+    w = None if weights is None else weights[:, :use].ravel()
+    return np.bincount(flat, weights=w, minlength=t * nblk * nb).reshape(t * nblk, nb)
+
+
+def _phasor_blocks(v):
+    e = np.exp(1j * v.psi)
+    return _blocks(np.stack([e.real, e.imag], axis=-1), v.stride)
+
+
+def _with_count(blk):
+    return np.concatenate([blk.sum(axis=1), np.full((blk.shape[0], 1), blk.shape[1])], axis=1)
+
+
+def _plv_value(v):
+    return plv(_flat(v.psi))
+
+
+def _plv_blocks(v):
+    return _with_count(_phasor_blocks(v)), lambda z: np.hypot(z[..., 0], z[..., 1]) / z[..., 2]
+
+
+def _ppc_value(v):
+    s = v.stride
+    n = v.psi.shape[-1] // s * s  # whole cycles in each trial, then trials pooled
+    return cycle_ppc(_flat(v.psi[..., :n]), s)
+
+
+def _ppc_blocks(v):
+    z = _phasor_blocks(v).mean(axis=1)  # cycle-mean phasors (n_blocks, 2)
+    st = np.column_stack([z, (z**2).sum(axis=1), np.ones(len(z))])
+
+    def fn(u):
+        n = u[..., 3]
+        return (u[..., 0] ** 2 + u[..., 1] ** 2 - u[..., 2]) / (n * (n - 1.0))
+
+    return st, fn
+
+
+def _entropy_value(v):
+    return entropy_index(_flat(v.psi))
+
+
+def _entropy_blocks(v):
+    nb = entropy_bins(v.psi.size)
+    return _block_bincount(_bin_index(v.psi, 2 * np.pi, nb), nb, v.stride), entropy_index_from_counts
+
+
+def _conditional_value(v):
+    return conditional_index(_flat(v.members[0]), _flat(v.members[1]), v.p, v.q)
+
+
+def _conditional_blocks(v):
+    pa, pb, s = v.members[0], v.members[1], v.stride
+    nb = min(64, entropy_bins(max(pa.size // v.p, 3)))
+    idx = _bin_index(pa, 2 * np.pi * v.p, nb)
+    z = np.exp(1j * pb / v.q)
+    st = np.concatenate(
+        [_block_bincount(idx, nb, s), _block_bincount(idx, nb, s, z.real), _block_bincount(idx, nb, s, z.imag)],
+        axis=1,
+    )
+
+    def fn(zz):
+        cnt, re, im = zz[..., :nb], zz[..., nb : 2 * nb], zz[..., 2 * nb :]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            r = np.hypot(re, im) / cnt
+        occ = cnt > 0
+        return np.sum(np.where(occ, r, 0.0), axis=-1) / np.maximum(occ.sum(axis=-1), 1)
+
+    return st, fn
+
+
+def _group_stack(v):
+    return np.stack(v.members, axis=-3)  # (..., units, T, n)
+
+
+def _order_value(v):
+    st = _group_stack(v)
+    return order_parameter(st.reshape(*st.shape[:-2], st.shape[-2] * st.shape[-1]), axis=-2)
+
+
+def _order_blocks(v):
+    rt = np.abs(np.mean(np.exp(1j * _group_stack(v)), axis=0))  # (T, n): R(t)
+    return _with_count(_blocks(rt[..., None], v.stride)), lambda z: z[..., 0] / z[..., 1]
+
+
+_VINCK = "Vinck M, et al. (2010). NeuroImage 51:112–122."
+_TASS = "Tass P, et al. (1998). Phys Rev Lett 81:3291–3294."
+
+#: name -> :class:`Measure`; the names are the values accepted by ``analyze(measures=...)``
+MEASURE_METHODS: dict[str, Measure] = {
+    m.name: m
+    for m in (
+        Measure("plv", "PLV", "pair", _plv_value, _plv_blocks,
+                "the phase-locking value (PLV, the length of the time average of the unit vector exp(iψ))",
+                ("Mormann F, et al. (2000). Physica D 144:358–369.",)),
+        Measure("ppc", "PPC", "pair", _ppc_value, _ppc_blocks,
+                "the pairwise phase consistency (PPC: the mean over all pairs of different cycles of the product "
+                "of their cycle-mean phasors, an estimate of the squared PLV that is not biased by the number of "
+                "cycles)", (_VINCK,)),
+        Measure("entropy_index", "entropy index", "pair", _entropy_value, _entropy_blocks,
+                "the Shannon-entropy index of the distribution of ψ", (_TASS,)),
+        Measure("conditional_index", "conditional-probability index", "pair", _conditional_value,
+                _conditional_blocks, "the conditional-probability (stroboscopic) index", (_TASS,)),
+        Measure("order_parameter", "order parameter", "group", _order_value, _order_blocks,
+                "the Kuramoto order parameter of the group (time average of |mean exp(iθ)| over the units)",
+                ("Allefeld C, Kurths J (2004). Int J Bifurcat Chaos 14:417–426.",)),
+    )
+}
+
+#: names of every measure, in registry order
+MEASURES = tuple(MEASURE_METHODS)

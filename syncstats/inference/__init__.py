@@ -1,26 +1,42 @@
-"""Inference: null distributions from surrogates, p-values, corrections over the
-searched family, effect sizes and confidence intervals."""
-from ._bootstrap import angle_ci, block_ci
+"""Inference: the design of the searched family, null distributions from surrogates
+pushed through the data's pipeline, p-values, corrections, effect sizes and intervals.
+
+Stages (each a function returning a small frozen object): :func:`make_design` ->
+:func:`null_distribution` -> :func:`test_family` -> :func:`row_intervals`.
+"""
+from ._bootstrap import CI_METHODS, Interval, RowIntervals, angle_ci, block_ci, row_intervals
 from ._circular import rayleigh_test
+from ._design import MIN_CYCLES, Design, make_design
 from ._family import Family, Row
-from ._pipeline import EVENT_LEVEL, PHASE_LEVEL, SIGNAL_LEVEL, TRIAL_LEVEL, NullJob, Pipeline
-from ._pvalues import CORRECTIONS, adjust, max_stat_adjust, min_surrogates, surrogate_pvalue
+from ._nulls import NullJob, check_method, method_options, null_distribution
+from ._pvalues import (CORRECTION_METHODS, CORRECTIONS, Correction, adjust, max_stat_adjust, min_surrogates,
+                       surrogate_pvalue)
+from ._testing import FamilyTest, test_family
 
 __all__ = [
+    "CI_METHODS",
     "CORRECTIONS",
-    "EVENT_LEVEL",
-    "PHASE_LEVEL",
-    "SIGNAL_LEVEL",
-    "TRIAL_LEVEL",
+    "CORRECTION_METHODS",
+    "Correction",
+    "Design",
     "Family",
+    "FamilyTest",
+    "Interval",
+    "MIN_CYCLES",
     "NullJob",
-    "Pipeline",
     "Row",
+    "RowIntervals",
     "adjust",
     "angle_ci",
     "block_ci",
+    "check_method",
+    "make_design",
     "max_stat_adjust",
+    "method_options",
     "min_surrogates",
+    "null_distribution",
     "rayleigh_test",
+    "row_intervals",
     "surrogate_pvalue",
+    "test_family",
 ]

@@ -1,15 +1,16 @@
 """Surrogate p-values and corrections for a searched family."""
 from __future__ import annotations
 
+from dataclasses import dataclass
+from typing import Callable
+
 import numpy as np
 from statsmodels.stats.multitest import multipletests
 
 from .._errors import SyncstatsInputError
 
-__all__ = ["CORRECTIONS", "surrogate_pvalue", "adjust", "max_stat_adjust", "min_surrogates"]
-
-#: statsmodels names of the p-value corrections, plus our max-statistic and "none"
-CORRECTIONS = ("fdr_bh", "fdr_by", "holm", "bonferroni", "max_stat", "none")
+__all__ = ["Correction", "CORRECTION_METHODS", "CORRECTIONS", "surrogate_pvalue", "adjust", "max_stat_adjust",
+           "min_surrogates"]
 
 
 def _tolerance(observed):
@@ -76,23 +77,89 @@ def max_stat_adjust(observed: np.ndarray, null: np.ndarray, *, step_down: bool =
     return out
 
 
-def adjust(pvalues: np.ndarray, method: str, *, observed=None, null=None) -> np.ndarray:
-    """Adjusted p-values over one family.
+@dataclass(frozen=True)
+class Correction:
+    """One multiple-testing correction (an entry of :data:`CORRECTION_METHODS`).
 
-    ``fdr_bh``, ``fdr_by``, ``holm``, ``bonferroni`` go through
-    ``statsmodels.stats.multitest.multipletests``; ``max_stat`` needs ``observed`` and
-    ``null``; ``none`` returns the p-values unchanged.
+    Attributes
+    ----------
+    name : str
+        Key accepted by ``analyze(correction=...)`` and ``--correction``.
+    label : str
+        Display name in the report.
+    controls : str
+        What it controls: "FDR", "FWER" or "none".
+    description : str
+        Noun phrase for the methods text.
+    citations : tuple of str
+    adjust : callable
+        ``adjust(pvalues, observed, null) -> adjusted p-values`` over one family.
+    min_surrogates : callable
+        ``min_surrogates(m, alpha) -> int``: smallest surrogate count at which a family
+        of m tests can reach significance.
     """
+
+    name: str
+    label: str
+    controls: str
+    description: str
+    citations: tuple[str, ...]
+    adjust: Callable
+    min_surrogates: Callable
+
+
+def _statsmodels(method):
+    return lambda p, observed=None, null=None: multipletests(p, method=method)[1]
+
+
+def _per_test(m, alpha):  # the smallest p must pass alpha/m (FDR: m/q − 1, METHODS.md)
+    return int(np.ceil(max(int(m), 1) / alpha - 1))
+
+
+def _single(m, alpha):
+    return int(np.ceil(1 / alpha - 1))
+
+
+#: name -> :class:`Correction`; the names are the values accepted by ``analyze(correction=...)``
+CORRECTION_METHODS: dict[str, Correction] = {
+    c.name: c
+    for c in (
+        Correction("fdr_bh", "Benjamini–Hochberg false discovery rate", "FDR",
+                   "the Benjamini–Hochberg false-discovery-rate procedure",
+                   ("Benjamini Y, Hochberg Y (1995). J R Stat Soc B 57:289–300.",), _statsmodels("fdr_bh"), _per_test),
+        Correction("fdr_by", "Benjamini–Yekutieli false discovery rate", "FDR",
+                   "the Benjamini–Yekutieli false-discovery-rate procedure (valid under any dependence)",
+                   ("Benjamini Y, Yekutieli D (2001). Ann Stat 29:1165–1188.",), _statsmodels("fdr_by"), _per_test),
+        Correction("holm", "Holm step-down", "FWER", "Holm's step-down family-wise correction",
+                   ("Holm S (1979). Scand J Stat 6:65–70.",), _statsmodels("holm"), _per_test),
+        Correction("bonferroni", "Bonferroni", "FWER", "the Bonferroni family-wise correction", (),
+                   _statsmodels("bonferroni"), _per_test),
+        Correction("max_stat", "max-statistic family-wise", "FWER",
+                   "a max-statistic family-wise correction: each statistic was standardised against its own "
+                   "surrogates and compared with the distribution of the maximum over the family within each "
+                   "surrogate (step-down)",
+                   ("Westfall PH, Young SS (1993). Resampling-Based Multiple Testing. Wiley.",),
+                   lambda p, observed=None, null=None: max_stat_adjust(observed, null), _single),
+        Correction("none", "no", "none", "no correction for multiple tests", (),
+                   lambda p, observed=None, null=None: np.asarray(p, dtype=float).copy(), _single),
+    )
+}
+
+#: names of the corrections, in registry order
+CORRECTIONS = tuple(CORRECTION_METHODS)
+
+
+def adjust(pvalues: np.ndarray, method: str, *, observed=None, null=None) -> np.ndarray:
+    """Adjusted p-values over one family with the correction ``method``
+    (:data:`CORRECTION_METHODS`; ``max_stat`` needs ``observed`` and ``null``)."""
     p = np.asarray(pvalues, dtype=float)
-    if method not in CORRECTIONS:
+    if method not in CORRECTION_METHODS:
         raise SyncstatsInputError(
             f"correction must be one of {', '.join(CORRECTIONS)}; got {method!r}."
         )
-    if p.size == 0 or method == "none":
+    if p.size == 0:
         return p.copy()
-    if method == "max_stat":
-        return max_stat_adjust(observed, null)
-    return multipletests(p, method=method)[1]
+    return CORRECTION_METHODS[method].adjust(p, observed=observed, null=null)
 
 
 def min_surrogates(n_tests: int, alpha: float, method: str) -> int:
@@ -101,7 +168,4 @@ def min_surrogates(n_tests: int, alpha: float, method: str) -> int:
     FDR methods: B >= m/q − 1 (METHODS.md); Bonferroni/Holm: the smallest p must pass
     alpha/m, so B >= m/alpha − 1; max-statistic and single tests: B >= 1/alpha − 1.
     """
-    m = max(int(n_tests), 1)
-    if method in ("fdr_bh", "fdr_by", "holm", "bonferroni"):
-        return int(np.ceil(m / alpha - 1))
-    return int(np.ceil(1 / alpha - 1))
+    return CORRECTION_METHODS[method].min_surrogates(n_tests, alpha)

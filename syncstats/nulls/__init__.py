@@ -11,8 +11,8 @@ See :data:`SURROGATE_METHODS` for what each method tests and where it fails.
 from ._endpoints import match_endpoints
 from ._events import interval_shuffle, trial_shuffle
 from ._fourier import aaft, fourier, iaaft, multivariate_fourier
-from ._registry import LEVELS, SURROGATE_METHODS, SurrogateMethod
-from ._shift import time_shift, time_shift_plv_all
+from ._registry import LEVEL_NOTES, LEVELS, SURROGATE_METHODS, SurrogateMethod
+from ._shift import shift_phase, time_shift, time_shift_plv_all
 from ._twin import twin
 
 __all__ = [
@@ -22,6 +22,7 @@ __all__ = [
     "multivariate_fourier",
     "time_shift",
     "time_shift_plv_all",
+    "shift_phase",
     "twin",
     "interval_shuffle",
     "trial_shuffle",
@@ -29,4 +30,5 @@ __all__ = [
     "SURROGATE_METHODS",
     "SurrogateMethod",
     "LEVELS",
+    "LEVEL_NOTES",
 ]

@@ -7,43 +7,44 @@ import scipy.fft as sfft
 from .._errors import SyncstatsInputError
 from ._validation import _as_channels, _check_int, _check_rngs
 
-__all__ = ["time_shift", "time_shift_plv_all"]
+__all__ = ["time_shift", "shift_phase", "time_shift_plv_all"]
 
 
 def time_shift(x, rngs, *, min_shift: int, return_shifts: bool = False):
-    """Time-shift surrogates: every channel but the first is rolled circularly by a random lag.
+    """Time-shift surrogates of one rhythm's unwrapped phase, with a phase-continuous joint.
 
     Parameters
     ----------
-    x : array_like, shape (C, N) or (N,)
-        Signals (raw signals or unwrapped phases), time on the last axis.
+    x : array_like, shape (T, N) or (N,)
+        Unwrapped phase(s) of one rhythm in radians, time on the last axis; the T rows
+        (trials) are shifted together by the same lag.
     rngs : sequence of numpy.random.Generator, length B
         One generator per surrogate; surrogate ``b`` draws only from ``rngs[b]``.
     min_shift : int
         Smallest shift in samples, 1 <= min_shift <= N // 2. Shifts are drawn uniformly
-        from the integers in [min_shift, N - min_shift], so that neither direction comes
-        closer than ``min_shift`` samples to the original alignment. Choose several cycles
-        of the slowest rhythm.
+        from the integers in [min_shift, N - min_shift] (one ``integers`` draw per
+        surrogate), so that neither direction comes closer than ``min_shift`` samples to
+        the original alignment. Choose several cycles of the slowest rhythm.
     return_shifts : bool, default False
-        Also return the shifts, shape (B, C) (0 for channel 0 when C > 1).
+        Also return the shifts, shape (B,).
 
     Returns
     -------
-    surrogates : numpy.ndarray, shape (B, C, N), float64
-        ``surrogates[b, c] = numpy.roll(x[c], shifts[b, c])``.
-    shifts : numpy.ndarray, shape (B, C), int
+    surrogates : numpy.ndarray, shape (B, T, N) (or (B, N) for 1-D input), float64
+    shifts : numpy.ndarray, shape (B,), int
         Only when ``return_shifts``.
 
     Notes
     -----
-    S_c(t) = x_c((t - tau_c) mod N). With C >= 2 channel 0 is the fixed reference and
-    channels 1..C-1 get independent shifts tau_c (one ``integers`` draw of size C - 1 per
-    surrogate). With a single channel (1-D input or C = 1) that channel is shifted (one
-    draw of size 1), the caller holding its partner fixed. Each series keeps its whole
-    dynamics (only the wrap point is new); the alignment between channels is destroyed.
-    There are only N - 2 min_shift + 1 distinct surrogates, and for a very regular rhythm
-    many shifts give almost the same alignment: the null is then weak. For phases, unwrap
-    after rolling (the wrap point makes a jump). Locking values at every shift at once:
+    With s the shift, S(t) = x((t - s) mod N) + A·[t >= s], where
+    A = (x[N-1] - x[0]) · N / (N - 1) is the phase advance over the record plus one mean
+    step. The piece taken from the record's start therefore continues the end's phase
+    (a phase-continuous joint): a plain circular wrap leaves a fraction of a cycle at
+    the joint, which misaligns very regular rhythms and pushes the null down. The pair
+    is compared as ``(x_A, S_B)``, so each rhythm keeps its whole own dynamics while the
+    alignment between them is destroyed. There are only N - 2 min_shift + 1 distinct
+    surrogates, and for a very regular rhythm many shifts give almost the same
+    alignment: the null is then weak. The locking value at every circular shift at once:
     :func:`time_shift_plv_all`.
 
     References
@@ -54,24 +55,32 @@ def time_shift(x, rngs, *, min_shift: int, return_shifts: bool = False):
     Examples
     --------
     >>> import numpy as np
-    >>> x = np.stack([np.arange(10.0), np.arange(10.0)])
-    >>> s, sh = time_shift(x, [np.random.default_rng(0)], min_shift=3, return_shifts=True)
-    >>> bool(np.array_equal(s[0, 1], np.roll(x[1], sh[0, 1]))), bool(3 <= sh[0, 1] <= 7)
+    >>> ph = 2 * np.pi * np.arange(10) / 4          # a regular rhythm, 4 samples a cycle
+    >>> s, sh = time_shift(ph, [np.random.default_rng(0)], min_shift=3, return_shifts=True)
+    >>> bool(3 <= sh[0] <= 7), bool(np.allclose(np.diff(s[0]), np.pi / 2))  # no jump at the joint
     (True, True)
     """
-    x2, _ = _as_channels(x, "time_shift", min_samples=2)
+    x2, one_d = _as_channels(x, "time_shift", min_samples=2)
     rngs = _check_rngs(rngs, "time_shift")
-    c, n = x2.shape
+    n = x2.shape[-1]
     min_shift = _check_int(min_shift, "min_shift", "time_shift", low=1, high=n // 2)
-    n_shifted = max(c - 1, 1)
-    drawn = np.stack([r.integers(min_shift, n - min_shift + 1, size=n_shifted) for r in rngs])
-    shifts = np.zeros((len(rngs), c), dtype=np.int64)
-    shifts[:, c - n_shifted :] = drawn
-    idx = (np.arange(n)[None, None, :] - shifts[:, :, None]) % n  # (B, C, N)
-    out = np.take_along_axis(np.broadcast_to(x2, idx.shape), idx, axis=-1)
-    if return_shifts:
-        return out, shifts
-    return out
+    shifts = np.array([g.integers(min_shift, n - min_shift + 1) for g in rngs], dtype=np.int64)
+    out = shift_phase(x2, shifts)
+    if one_d:
+        out = out[:, 0, :]
+    return (out, shifts) if return_shifts else out
+
+
+def shift_phase(ph: np.ndarray, shifts: np.ndarray) -> np.ndarray:
+    """Apply given shifts with the phase-continuous joint of :func:`time_shift`.
+
+    ``ph`` (T, N) unwrapped phases, ``shifts`` (B,) ints in [0, N) -> (B, T, N).
+    """
+    n = ph.shape[-1]
+    src = np.arange(n)[None, :] - np.asarray(shifts)[:, None]  # (B, N); < 0: taken from the end
+    rolled = ph[:, src % n].transpose(1, 0, 2)  # (B, T, N)
+    adv = ph[:, -1] - ph[:, 0] + (ph[:, -1] - ph[:, 0]) / (n - 1)  # (T,)
+    return rolled + (src >= 0)[:, None, :] * adv[None, :, None]
 
 
 def time_shift_plv_all(za, zb) -> np.ndarray:
@@ -88,9 +97,8 @@ def time_shift_plv_all(za, zb) -> np.ndarray:
     -------
     numpy.ndarray, shape (broadcast(...), N), float64
         ``out[..., tau] = |mean_t za[t] * conj(zb[(t + tau) mod N])|`` for tau = 0..N-1.
-        ``out[..., 0]`` is the unshifted PLV. A time-shift surrogate that rolls B by
-        ``s`` samples (``numpy.roll(zb, s)``, as :func:`time_shift` does) corresponds to
-        ``tau = (N - s) mod N``.
+        ``out[..., 0]`` is the unshifted PLV. A circular roll of B by ``s`` samples
+        (``numpy.roll(zb, s)``) corresponds to ``tau = (N - s) mod N``.
 
     Notes
     -----

@@ -163,10 +163,10 @@ def _panel_phase_difference(ax, s: PairSummary, result, head) -> str | None:
 
 
 def _panel_null(ax, s: PairSummary, result, head) -> str | None:
-    nd = result.null_distributions or {}
-    null = nd.get(head.name)
-    if null is None:
+    nd = result.null_distribution
+    if nd is None or head.name >= len(nd):
         return None
+    null = nd[head.name]
     null = np.asarray(null, dtype=float)
     null = null[np.isfinite(null)]
     if null.size == 0:

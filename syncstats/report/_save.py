@@ -6,7 +6,7 @@ from pathlib import Path
 from .._errors import SyncstatsInputError
 from ..results import ResultData
 from . import _html, _methods, _provenance, _table
-from ._atomic import write_folder_atomically
+from .._atomic import write_folder_atomically
 
 __all__ = ["save_result", "OUTPUT_FILES"]
 

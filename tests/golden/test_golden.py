@@ -11,7 +11,11 @@ import pytest
 from .cases import TABLES, cases, run_case
 
 #: cases whose stored table was rewritten on purpose, and why
-DELIBERATE = {}
+DELIBERATE = {
+    "events_protophase": "the protophase correction of event phases is now applied to the surrogates' event phases "
+    "too (it was applied to the data only); null_mean moved from 0.405389 to 0.405390 on this nearly periodic "
+    "train, p-values unchanged",
+}
 
 
 @pytest.mark.parametrize("name", sorted(cases()))

@@ -94,7 +94,7 @@ def test_inference_columns_filled_and_consistent():
                             correction="max_stat")
     tab = res.table
     assert tab.n_surrogates.eq(39).all() and tab.surrogate.eq("iaaft").all()
-    k = np.array([np.sum(res.null_distributions[i] >= tab.value[i] - 1e-12) for i in tab.index])
+    k = np.array([np.sum(res.null_distribution[i] >= tab.value[i] - 1e-12) for i in tab.index])
     assert np.allclose(tab.p_value, (1 + k) / 40)
     assert np.allclose(tab.effect, tab.value - tab.null_mean)
     assert np.allclose(tab.z, tab.effect / tab.null_sd)

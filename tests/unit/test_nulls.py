@@ -123,22 +123,22 @@ def test_iaaft_cap_and_per_surrogate_convergence():
 # ---------------------------------------------------------------- time shift
 
 
-def test_time_shift_rolls_each_channel_within_bounds():
-    x = noisy_pair(500)
-    x3 = np.vstack([x, x[0] * 2])
-    s, shifts = sn.time_shift(x3, gens(range(20)), min_shift=50, return_shifts=True)
-    assert s.shape == (20, 3, 500)
-    assert (shifts[:, 0] == 0).all()
-    assert ((shifts[:, 1:] >= 50) & (shifts[:, 1:] <= 450)).all()
+def test_time_shift_moves_all_rows_together_with_a_phase_continuous_joint():
+    rng = np.random.default_rng(3)
+    ph = np.cumsum(rng.normal(0.3, 0.05, size=(3, 500)), axis=-1)  # 3 trials of one rhythm
+    s, shifts = sn.time_shift(ph, gens(range(20)), min_shift=50, return_shifts=True)
+    assert s.shape == (20, 3, 500) and shifts.shape == (20,)
+    assert ((shifts >= 50) & (shifts <= 450)).all() and len(np.unique(shifts)) > 10
+    adv = (ph[:, -1] - ph[:, 0]) * 500 / 499
     for b in range(20):
-        assert np.array_equal(s[b, 0], x3[0])
-        for c in (1, 2):
-            assert np.array_equal(s[b, c], np.roll(x3[c], shifts[b, c]))
-    assert len(np.unique(shifts[:, 1])) > 10
-    # a single channel is shifted itself
-    s1, sh1 = sn.time_shift(x[0], gens([1, 2]), min_shift=10, return_shifts=True)
-    assert s1.shape == (2, 1, 500) and (sh1 >= 10).all()
-    assert np.array_equal(s1[1, 0], np.roll(x[0], sh1[1, 0]))
+        k = shifts[b]
+        # the part from the record's end comes first, unchanged; the start continues it
+        np.testing.assert_array_equal(s[b, :, :k], ph[:, 500 - k:])
+        np.testing.assert_allclose(s[b, :, k:], ph[:, : 500 - k] + adv[:, None], rtol=1e-12)
+        steps = np.diff(s[b], axis=-1)
+        assert steps.min() > 0.05 and steps.max() < 0.6  # no jump where the end meets the start
+    s1, sh1 = sn.time_shift(ph[0], gens([1, 2]), min_shift=10, return_shifts=True)
+    assert s1.shape == (2, 500) and (sh1 >= 10).all()
 
 
 def test_time_shift_plv_all_matches_direct_computation():

@@ -68,7 +68,7 @@ def saved(tested_result, tmp_path_factory):
         "hashes": {str(f): _sha256(f) for f in (data_file, other)},
         "table": r.table.copy(deep=True),
         "params": json.dumps(r.params, sort_keys=True),
-        "nulls": {k: v.copy() for k, v in r.null_distributions.items()},
+        "nulls": None if r.null_distribution is None else r.null_distribution.copy(),
     }
     out = save_result(r, base / "run1")
     return {"result": r, "out": out, "base": base, "inputs": (data_file, other), "before": before}
@@ -144,7 +144,8 @@ def _toy_result(names=("heart", "breath", "arm"), *, windows=True, events=True,
                   started_at="2024-05-01T10:00:00+00:00", finished_at="2024-05-01T10:01:00+00:00",
                   syncstats_version="0")
     return ResultData(table=finalize_table(rows), diagnostics=diag, params=params,
-                      null_distributions=nulls, phase_differences=psis, phases=phases,
+                      null_distribution=np.array([nulls[i] for i in range(len(rows))]) if nulls else None,
+                      phase_differences=psis, phases=phases,
                       time_s=t, events=ev, notes=["toy"], inputs=[])
 
 
@@ -393,9 +394,7 @@ def test_inputs_and_result_are_not_modified(saved):
         assert _sha256(f) == h, f
     pd.testing.assert_frame_equal(r.table, before["table"])
     assert json.dumps(r.params, sort_keys=True) == before["params"]
-    assert r.null_distributions.keys() == before["nulls"].keys()
-    for k, v in before["nulls"].items():
-        np.testing.assert_array_equal(r.null_distributions[k], v)
+    np.testing.assert_array_equal(r.null_distribution, before["nulls"])
 
 
 # --------------------------------------------------------------------------- atomicity

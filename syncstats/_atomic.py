@@ -13,7 +13,7 @@ import uuid
 from pathlib import Path
 from typing import Callable, Iterable
 
-from .._errors import SyncstatsInputError
+from ._errors import SyncstatsInputError
 
 __all__ = ["write_folder_atomically"]
 
