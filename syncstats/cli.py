@@ -2,17 +2,20 @@
 
 Exit status: 0 success; 2 bad input or usage (one plain sentence on stderr naming the
 file/signal/option at fault and what to do; a traceback only with ``--debug``);
-1 an internal error. Outputs are written atomically; inputs are never modified.
+130 interrupted (nothing written); 1 an internal error. ``python -m syncstats`` is the
+same command. Outputs are written atomically; inputs are never modified.
 """
 from __future__ import annotations
 
 import argparse
+import inspect
 from dataclasses import replace
 import sys
 import tomllib
 import warnings
 from pathlib import Path
 
+from ._checks import check_bool, check_float, check_int, parse_ratios
 from ._errors import SyncstatsInputError
 
 __all__ = ["main"]
@@ -36,35 +39,84 @@ examples:
   syncstats simulate --kind beats --ratio 4:1 --seed 2 --out sim-beats
 """
 
-#: option -> (config key, converter); also the set of keys a --config file may hold
+def _str(v, key):
+    if not isinstance(v, str):
+        raise SyncstatsInputError(f"option {key} must be text; got {v!r}.")
+    return v
+
+
+def _list(v, key):
+    if isinstance(v, str):
+        v = [v]
+    if not isinstance(v, (list, tuple)) or not all(isinstance(x, (str, list, tuple)) for x in v):
+        raise SyncstatsInputError(f"option {key} must be a list; got {v!r}.")
+    return list(v)
+
+
+def _pairs(v, key):
+    items = _list(v, key)
+    out = []
+    for pr in items:
+        if isinstance(pr, str):
+            pr = [x.strip() for x in pr.split(",")]
+        if len(pr) != 2 or not all(isinstance(x, str) for x in pr):
+            raise SyncstatsInputError(f"option {key} must list pairs of two signal names, e.g. [[\"heart\", \"resp\"]]; got {pr!r}.")
+        out.append(tuple(pr))
+    return out
+
+
+def _bands(v, key):
+    if not isinstance(v, dict):
+        raise SyncstatsInputError(f"option {key} must be a table NAME = [LOW, HIGH] in Hz; got {v!r}.")
+    return {str(k): tuple(b) if isinstance(b, (list, tuple)) else b for k, b in v.items()}
+
+
+def _num(low=None, high=None, open_low=False, open_high=False):
+    return lambda v, key: check_float(v, f"option {key}", low=low, high=high, open_low=open_low, open_high=open_high)
+
+
+def _whole(low=None, high=None):
+    return lambda v, key: check_int(v, f"option {key}", low=low, high=high)
+
+
+#: every analysis option: config key -> converter; the command line and a --config file
+#: go through the same converters (booleans strictly true/false)
 CONFIG_KEYS = {
-    "fs": float,
-    "signals": str,
-    "events": list,
-    "pairs": list,
-    "ratios": str,
-    "measures": str,
-    "surrogate": str,
-    "n_surrogates": int,
-    "correction": str,
-    "alpha": float,
-    "seed": int,
-    "bands": dict,
-    "phase_method": str,
-    "protophase_correction": bool,
-    "windows": float,
-    "window_step": float,
-    "edge_s": float,
-    "ci_level": float,
-    "ci_method": str,
-    "n_bootstrap": int,
-    "batch_size": int,
-    "jobs": int,
-    "gaps": str,
-    "resample_to": float,
-    "annotation": str,
-    "time_column": str,
+    "fs": _num(0, open_low=True),
+    "signals": _str,
+    "events": _list,
+    "pairs": _pairs,
+    "ratios": _str,
+    "measures": _str,
+    "surrogate": _str,
+    "n_surrogates": _whole(0),
+    "correction": _str,
+    "alpha": _num(0, 1, True, True),
+    "seed": _whole(0),
+    "bands": _bands,
+    "phase_method": _str,
+    "protophase_correction": lambda v, key: check_bool(v, f"option {key}"),
+    "windows": _num(0, open_low=True),
+    "window_step": _num(0, open_low=True),
+    "edge_s": _num(0),
+    "min_shift_s": _num(0, open_low=True),
+    "ci_level": _num(0, 1, True, True),
+    "ci_method": _str,
+    "n_bootstrap": _whole(0),
+    "batch_size": _whole(1),
+    "jobs": _whole(1),
+    "gaps": _str,
+    "resample_to": _num(0, open_low=True),
+    "annotation": _str,
+    "time_column": _str,
 }
+
+
+def _default(name):
+    """The default of an ``analyze`` keyword (the command line never repeats them)."""
+    from .api import analyze
+
+    return inspect.signature(analyze).parameters[name].default
 
 
 class _Parser(argparse.ArgumentParser):
@@ -72,6 +124,47 @@ class _Parser(argparse.ArgumentParser):
 
     def error(self, message):  # noqa: D401
         raise SyncstatsInputError(f"{message} (see '{self.prog} --help').")
+
+
+def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
+    """The analysis options (shared by every subcommand that analyses); defaults are
+    those of ``syncstats.analyze``, choices those of the registries."""
+    opt = lambda flag, help, **kw: a.add_argument(flag, help=help, **kw)  # noqa: E731
+    opt("--fs", "sampling rate in Hz (when the file has no time column)")
+    opt("--signals", "comma-separated signal names to use (default: all)")
+    opt("--events", "event times (s) from a file; repeatable", action="append", metavar="NAME=FILE")
+    opt("--pair", "a pair to test; repeatable (default: every pair)", action="append", nargs=2, metavar=("A", "B"),
+        dest="pairs")
+    opt("--ratios", "comma-separated p:q ratios (A makes p cycles while B makes q), or 'auto' (default: 1:1)")
+    opt("--measures", f"comma-separated, from: {', '.join(measures)} (default: {','.join(_default('measures'))})")
+    opt("--surrogate", f"one of: {', '.join(surrogates)} (default: {_default('surrogate')})")
+    opt("--n-surrogates", f"surrogates to draw (default {_default('n_surrogates')}; 0 = measures only)",
+        dest="n_surrogates")
+    opt("--correction", f"one of: {', '.join(corrections)} (default: {_default('correction')})")
+    opt("--alpha", f"significance level (default {_default('alpha')})")
+    opt("--seed", "seed for every random draw (recorded in provenance.json)")
+    opt("--band", "pass band in Hz for one signal; repeatable", action="append", metavar="NAME=LOW-HIGH", dest="band")
+    opt("--phase-method", f"hilbert or wavelet (default: {_default('phase_method')})", dest="phase_method")
+    opt("--protophase-correction", "uniformise protophases", dest="protophase_correction", action="store_const",
+        const=True)
+    opt("--windows", "window length in seconds (windows count in the correction)")
+    opt("--window-step", "window step in seconds (default: the length)", dest="window_step")
+    opt("--min-shift", "smallest time shift in seconds for time_shift surrogates", dest="min_shift_s")
+    opt("--ci-level", f"confidence level (default {_default('ci_level')})", dest="ci_level")
+    opt("--ci-method", f"one of: {', '.join(ci_methods)} (default: {_default('ci_method')})", dest="ci_method")
+    opt("--n-bootstrap", f"bootstrap resamples (default {_default('n_bootstrap')}; 0 = no intervals)",
+        dest="n_bootstrap")
+    opt("--batch-size", f"surrogates per batch (memory; results do not change; default {_default('batch_size')})",
+        dest="batch_size")
+    opt("--jobs", "worker processes (default 1)")
+    opt("--gaps", "at a gap: stop with an error (default) or analyse each gap-free segment", choices=("error", "split"))
+    opt("--resample-to", "bring signals of different rates to this rate (Hz)", dest="resample_to")
+    opt("--annotation", "EDF+/WFDB annotation to read as events (e.g. R, atr)")
+    opt("--time-column", "name of the time column in a table", dest="time_column")
+    opt("--config", "TOML file with any of these options (command-line options win)")
+    opt("--out", "output folder (must not exist or be empty)", required=True)
+    opt("--overwrite", "replace an existing output folder", action="store_true")
+    opt("--quiet", "no progress bar", action="store_true")
 
 
 def _build_parser() -> argparse.ArgumentParser:
@@ -83,6 +176,10 @@ def _build_parser() -> argparse.ArgumentParser:
     p.add_argument("--debug", action="store_true", help="show tracebacks (may stand anywhere on the line)")
     sub = p.add_subparsers(dest="command", parser_class=_Parser)
 
+    from .inference import CI_METHODS, CORRECTION_METHODS
+    from .measures import MEASURE_METHODS
+    from .nulls import SURROGATE_METHODS
+
     a = sub.add_parser(
         "analyze",
         help="analyse a recording file",
@@ -91,35 +188,7 @@ def _build_parser() -> argparse.ArgumentParser:
         description="Phases, locking measures, surrogate test, corrections and intervals for one recording file.",
     )
     a.add_argument("input", help="CSV/TSV, Parquet, EDF/BDF, WFDB (.hea) or an event list (.txt)")
-    a.add_argument("--fs", type=float, help="sampling rate in Hz (when the file has no time column)")
-    a.add_argument("--signals", help="comma-separated signal names to use (default: all)")
-    a.add_argument("--events", action="append", metavar="NAME=FILE", help="event times (s) from a file; repeatable")
-    a.add_argument("--pair", action="append", nargs=2, metavar=("A", "B"), dest="pairs", help="a pair to test; repeatable (default: every pair)")
-    a.add_argument("--ratios", help="comma-separated p:q ratios (A makes p cycles while B makes q), or 'auto'")
-    a.add_argument("--measures", help="comma-separated: plv, ppc, entropy_index, conditional_index, order_parameter")
-    a.add_argument("--surrogate", help="fourier, aaft, iaaft, time_shift, twin, trial_shuffle, interval_shuffle, multivariate_fourier")
-    a.add_argument("--n-surrogates", type=int, dest="n_surrogates", help="surrogates to draw (default 999; 0 = measures only)")
-    a.add_argument("--correction", help="fdr_bh, fdr_by, holm, bonferroni, max_stat or none")
-    a.add_argument("--alpha", type=float, help="significance level (default 0.05)")
-    a.add_argument("--seed", type=int, help="seed for every random draw (recorded in provenance.json)")
-    a.add_argument("--band", action="append", metavar="NAME=LOW-HIGH", dest="band", help="pass band in Hz for one signal; repeatable")
-    a.add_argument("--phase-method", dest="phase_method", help="hilbert (default) or wavelet")
-    a.add_argument("--protophase-correction", dest="protophase_correction", action="store_const", const=True, help="uniformise protophases")
-    a.add_argument("--windows", type=float, help="window length in seconds (windows count in the correction)")
-    a.add_argument("--window-step", type=float, dest="window_step", help="window step in seconds (default: the length)")
-    a.add_argument("--ci-level", type=float, dest="ci_level", help="confidence level (default 0.95)")
-    a.add_argument("--ci-method", dest="ci_method", help="percentile (default), bca or basic")
-    a.add_argument("--n-bootstrap", type=int, dest="n_bootstrap", help="bootstrap resamples (default 999)")
-    a.add_argument("--batch-size", type=int, dest="batch_size", help="surrogates per batch (memory; results do not change)")
-    a.add_argument("--jobs", type=int, help="worker processes (default 1)")
-    a.add_argument("--gaps", choices=("error", "split"), help="at a gap: stop with an error (default) or analyse each gap-free segment")
-    a.add_argument("--resample-to", type=float, dest="resample_to", help="bring signals of different rates to this rate (Hz)")
-    a.add_argument("--annotation", help="EDF+/WFDB annotation to read as events (e.g. R, atr)")
-    a.add_argument("--time-column", dest="time_column", help="name of the time column in a table")
-    a.add_argument("--config", help="TOML file with any of these options (command-line options win)")
-    a.add_argument("--out", required=True, help="output folder (must not exist or be empty)")
-    a.add_argument("--overwrite", action="store_true", help="replace an existing output folder")
-    a.add_argument("--quiet", action="store_true", help="no progress bar")
+    _add_analysis_options(a, MEASURE_METHODS, SURROGATE_METHODS, CORRECTION_METHODS, CI_METHODS)
 
     d = sub.add_parser("demo", help="run the whole job on the bundled demo study",
                        description="Analyse the bundled demo study (simulated) and write the four output files.")
@@ -148,8 +217,14 @@ def _load_config(path):
     if not p.is_file():
         raise SyncstatsInputError(f"config file '{p}' does not exist; give the path of a TOML file.")
     try:
-        cfg = tomllib.loads(p.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as err:
+        text = p.read_text(encoding="utf-8")
+    except OSError as err:
+        raise SyncstatsInputError(f"config file '{p}' cannot be read ({err.strerror}); check its permissions.") from None
+    except UnicodeDecodeError:
+        raise SyncstatsInputError(f"config file '{p}' is not UTF-8 text; save it as a UTF-8 TOML file.") from None
+    try:
+        cfg = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
         raise SyncstatsInputError(f"config file '{p}' is not valid TOML ({err}); fix the file.") from None
     cfg = cfg.get("analyze", cfg)
     unknown = sorted(set(cfg) - set(CONFIG_KEYS))
@@ -186,25 +261,50 @@ def _progress(total, quiet):
     return bar.update, bar.close
 
 
-def _run_analyze(args):
-    from . import io as sio
-    from .api import analyze
-    from .api import combine_results
-
+def _options(args):
+    """Config file, then command line (which wins), each value through its converter."""
     opts = {}
     if args.config:
-        opts.update(_load_config(args.config))
-    for k in CONFIG_KEYS:
+        for k, v in _load_config(args.config).items():
+            opts[k] = CONFIG_KEYS[k](v, k)
+    for k, conv in CONFIG_KEYS.items():
         v = getattr(args, k, None)
         if v is not None:
-            opts[k] = v
+            opts[k] = conv(v, "--" + k.replace("_", "-"))
     if args.band:
         opts["bands"] = dict(_parse_band(b) for b in args.band)
+    return opts
+
+
+def _analysis_kwargs(opts, quiet):
+    """``analyze`` keywords from the options; what is not given keeps analyze's default."""
+    kw = {k: opts[k] for k in ("surrogate", "n_surrogates", "correction", "alpha", "bands", "phase_method",
+                                "protophase_correction", "windows", "window_step", "edge_s", "min_shift_s",
+                                "ci_level", "ci_method", "n_bootstrap", "batch_size") if k in opts}
+    if "seed" in opts:
+        kw["rng"] = opts["seed"]
+    if opts.get("pairs"):
+        kw["pairs"] = [tuple(p) for p in opts["pairs"]]
+    if "ratios" in opts:
+        kw["ratios"] = "auto" if opts["ratios"].strip() == "auto" else parse_ratios(opts["ratios"])
+    if "measures" in opts:
+        kw["measures"] = tuple(_split(opts["measures"]))
+    jobs = int(opts.get("jobs", 1))
+    if jobs > 1:
+        kw.update(executor="processes", n_jobs=jobs)
+    return kw
+
+
+def _run_analyze(args):
+    from . import io as sio
+    from .api import analyze, combine_results
+
+    opts = _options(args)
     events = {}
     for item in opts.get("events") or []:
-        if "=" not in item:
+        name, sep, path = str(item).partition("=")
+        if not sep or not name.strip() or not path.strip():
             raise SyncstatsInputError(f"--events '{item}' must look like NAME=FILE, e.g. beats=rpeaks.txt.")
-        name, path = item.split("=", 1)
         events[name.strip()] = path.strip()
     read_kw = dict(
         fs=opts.get("fs"),
@@ -218,44 +318,15 @@ def _run_analyze(args):
         recs = sio.read_segments(args.input, gaps="split", **read_kw)
     else:
         recs = [sio.read_recording(args.input, **read_kw)]
-    ratios = opts.get("ratios")
-    if ratios is not None and ratios != "auto":
-        ratios = _split(ratios)
-    measures = tuple(_split(opts.get("measures")) or ("plv",))
-    n_sur = int(opts.get("n_surrogates", 999))
+    kw = _analysis_kwargs(opts, args.quiet)
+    n_sur = kw.get("n_surrogates", _default("n_surrogates"))
     results = []
     for rec in recs:
         tick, close = _progress(n_sur, args.quiet)
         try:
-            res = analyze(
-                rec,
-                fs=rec.fs,
-                pairs=[tuple(p) for p in opts["pairs"]] if opts.get("pairs") else None,
-                ratios=ratios,
-                measures=measures,
-                surrogate=opts.get("surrogate", "iaaft"),
-                n_surrogates=n_sur,
-                correction=opts.get("correction", "fdr_bh"),
-                alpha=float(opts.get("alpha", 0.05)),
-                rng=opts.get("seed"),
-                bands=opts.get("bands", "auto"),
-                phase_method=opts.get("phase_method", "hilbert"),
-                protophase_correction=bool(opts.get("protophase_correction", False)),
-                windows=opts.get("windows"),
-                window_step=opts.get("window_step"),
-                edge_s=opts.get("edge_s"),
-                ci_level=float(opts.get("ci_level", 0.95)),
-                ci_method=opts.get("ci_method", "percentile"),
-                n_bootstrap=int(opts.get("n_bootstrap", 999)),
-                batch_size=int(opts.get("batch_size", 32)),
-                executor="processes" if int(opts.get("jobs", 1)) > 1 else None,
-                n_jobs=int(opts.get("jobs", 1)),
-                recording=rec.name,
-                progress=tick,
-            )
+            results.append(analyze(rec, fs=rec.fs, recording=rec.name, progress=tick, **kw))
         finally:
             close()
-        results.append(res)
     res = results[0] if len(results) == 1 else combine_results(results)
     res = replace(
         res,
@@ -337,7 +408,7 @@ def main(argv=None) -> int:
         return 2
     except KeyboardInterrupt:
         print("syncstats: interrupted; nothing was written.", file=sys.stderr)
-        return 1
+        return 130
     except Exception as err:  # an internal error: not the user's fault
         if debug:
             raise
