@@ -11,48 +11,25 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from ..inference import CORRECTION_METHODS
+from ..measures import MEASURE_METHODS
+from ..nulls import SURROGATE_METHODS
+
 __all__: list[str] = []
 
-MEASURE_NAMES = {
-    "plv": "PLV",
-    "ppc": "PPC",
-    "entropy_index": "entropy index",
-    "conditional_index": "conditional-probability index",
-    "order_parameter": "order parameter",
-}
-
-SURROGATE_NAMES = {
-    "fourier": "Fourier phase-randomised",
-    "aaft": "AAFT",
-    "iaaft": "IAAFT",
-    "multivariate_fourier": "multivariate Fourier",
-    "time_shift": "time-shifted",
-    "twin": "twin",
-    "trial_shuffle": "trial-shuffled",
-    "interval_shuffle": "interval-shuffled",
-}
-
-CORRECTION_NAMES = {
-    "fdr_bh": "Benjamini–Hochberg false discovery rate",
-    "fdr_by": "Benjamini–Yekutieli false discovery rate",
-    "holm": "Holm step-down",
-    "bonferroni": "Bonferroni",
-    "max_stat": "max-statistic family-wise",
-    "none": "no",
-    "": "no",
-}
-
-
 def measure_name(m) -> str:
-    return MEASURE_NAMES.get(str(m), str(m))
+    e = MEASURE_METHODS.get(str(m))
+    return e.label if e else str(m)
 
 
 def surrogate_name(s) -> str:
-    return SURROGATE_NAMES.get(str(s), str(s))
+    e = SURROGATE_METHODS.get(str(s))
+    return e.label if e else str(s)
 
 
 def correction_name(c) -> str:
-    return CORRECTION_NAMES.get(str(c), str(c))
+    e = CORRECTION_METHODS.get(str(c))
+    return e.label if e else ("no" if str(c) == "" else str(c))
 
 
 def is_missing(x) -> bool:

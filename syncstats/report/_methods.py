@@ -1,7 +1,8 @@
 """methods.md: a methods paragraph ready to paste into a paper, with its references.
 
-Only what the run used is named and cited. Wording is ours; the reference list is taken
-from the project's METHODS.md notes (author, year, journal, volume:pages).
+Only what the run used is named and cited. Wording is ours; measures, surrogates and
+corrections are described and cited from their registries; the phase methods' papers
+are listed here (author, year, journal, volume:pages).
 """
 from __future__ import annotations
 
@@ -9,6 +10,9 @@ from pathlib import Path
 
 import pandas as pd
 
+from ..inference import CORRECTION_METHODS
+from ..measures import MEASURE_METHODS
+from ..nulls import SURROGATE_METHODS
 from ._common import fmt_level, ratio_words
 
 __all__ = ["methods_text", "write_methods_md", "CAUTION"]
@@ -23,74 +27,11 @@ REFERENCES = {
     "torrence1998": "Torrence C, Compo GP (1998). Bull Am Meteorol Soc 79:61–78.",
     "kralemann2007": "Kralemann B, et al. (2007). Phys Rev E 76:055201(R).",
     "kralemann2008": "Kralemann B, et al. (2008). Phys Rev E 77:066205.",
-    "mormann2000": "Mormann F, et al. (2000). Physica D 144:358–369.",
-    "lachaux1999": "Lachaux J-P, et al. (1999). Hum Brain Mapp 8:194–208.",
-    "vinck2010": "Vinck M, et al. (2010). NeuroImage 51:112–122.",
     "tass1998": "Tass P, et al. (1998). Phys Rev Lett 81:3291–3294.",
     "schafer1998": "Schäfer C, Rosenblum MG, Kurths J, Abel H-H (1998). Nature 392:239–240.",
     "schafer1999": "Schäfer C, et al. (1999). Phys Rev E 60:857–870.",
-    "allefeld2004": "Allefeld C, Kurths J (2004). Int J Bifurcat Chaos 14:417–426.",
-    "theiler1992": "Theiler J, et al. (1992). Physica D 58:77–94.",
-    "schreiber1996": "Schreiber T, Schmitz A (1996). Phys Rev Lett 77:635–638.",
-    "prichard1994": "Prichard D, Theiler J (1994). Phys Rev Lett 73:951–954.",
-    "hurtado2004": "Hurtado JM, et al. (2004). J Neurophysiol 91:1883–1898.",
-    "thiel2006": "Thiel M, et al. (2006). Europhys Lett 75:535–541.",
-    "romano2009": "Romano MC, et al. (2009). Chaos 19:015108.",
     "phipson2010": "Phipson B, Smyth GK (2010). Stat Appl Genet Mol Biol 9:39.",
-    "westfall1993": "Westfall PH, Young SS (1993). Resampling-Based Multiple Testing. Wiley.",
-    "bh1995": "Benjamini Y, Hochberg Y (1995). J R Stat Soc B 57:289–300.",
-    "by2001": "Benjamini Y, Yekutieli D (2001). Ann Stat 29:1165–1188.",
-    "holm1979": "Holm S (1979). Scand J Stat 6:65–70.",
     "efron1993": "Efron B, Tibshirani RJ (1993). An Introduction to the Bootstrap. Chapman & Hall.",
-}
-
-_MEASURE_TEXT = {
-    "plv": ("the phase-locking value (PLV, the length of the time average of the unit vector exp(iψ))",
-            ["mormann2000"]),
-    "ppc": ("the pairwise phase consistency (PPC: the mean over all pairs of different cycles "
-            "of the product of their cycle-mean phasors, an estimate of the squared PLV that is "
-            "not biased by the number of cycles)", ["vinck2010"]),
-    "entropy_index": ("the Shannon-entropy index of the distribution of ψ", ["tass1998"]),
-    "conditional_index": ("the conditional-probability (stroboscopic) index", ["tass1998"]),
-    "order_parameter": ("the Kuramoto order parameter of the group", ["allefeld2004"]),
-}
-
-_SURROGATE_TEXT = {
-    "fourier": ("Fourier phase-randomised surrogates", ["theiler1992"]),
-    "aaft": ("amplitude-adjusted Fourier-transform (AAFT) surrogates", ["theiler1992"]),
-    "iaaft": ("iterative amplitude-adjusted Fourier-transform (IAAFT) surrogates, which keep "
-              "each signal's power spectrum and value distribution", ["schreiber1996"]),
-    "multivariate_fourier": ("multivariate Fourier surrogates (one random phase per frequency "
-                             "shared by all channels, keeping the cross-spectrum)",
-                             ["prichard1994"]),
-    "time_shift": ("time-shift surrogates (one signal shifted circularly against the other "
-                   "by several cycles)", ["hurtado2004"]),
-    "twin": ("twin surrogates (new trajectories of the same system from recurrence twins)",
-             ["thiel2006", "romano2009"]),
-    "trial_shuffle": ("trial-shuffled surrogates (trial i of one signal paired with another "
-                      "trial of the other)", []),
-    "interval_shuffle": ("interval-shuffled surrogates (inter-event intervals permuted)", []),
-}
-
-_CORRECTION_TEXT = {
-    "fdr_bh": ("the Benjamini–Hochberg false-discovery-rate procedure", ["bh1995"]),
-    "fdr_by": ("the Benjamini–Yekutieli false-discovery-rate procedure (valid under any "
-               "dependence)", ["by2001"]),
-    "holm": ("Holm's step-down family-wise correction", ["holm1979"]),
-    "bonferroni": ("the Bonferroni family-wise correction", []),
-    "max_stat": ("a max-statistic family-wise correction: each statistic was standardised "
-                 "against its own surrogates and compared with the distribution of the "
-                 "maximum over the family within each surrogate", ["westfall1993"]),
-}
-
-_NULL_TEXT = {
-    "": "the rhythms are independent while each keeps its own properties",
-    "multivariate_fourier": ("the signals are linearly correlated Gaussian processes with the "
-                             "observed spectra and cross-spectra, so that only locking beyond "
-                             "linear coupling counts"),
-    "time_shift": ("each rhythm keeps its own dynamics but their relative timing is "
-                   "arbitrary"),
-    "twin": "the rhythms are independent runs of the same underlying systems",
 }
 
 _NULL_LEVEL_TEXT = {
@@ -126,6 +67,10 @@ def _join(words: list[str]) -> str:
     return ", ".join(words[:-1]) + " and " + words[-1]
 
 
+#: the registries cite by full reference; the same paper is one entry
+_KEY_OF = {v: k for k, v in REFERENCES.items()}
+
+
 class _Cites:
     def __init__(self):
         self.keys: list[str] = []
@@ -134,7 +79,8 @@ class _Cites:
         """Register references; return an in-text marker like ' [1, 2]'."""
         nums = []
         for k in keys:
-            if k not in self.keys:
+            k = _KEY_OF.get(k, k)
+            if k not in self.keys:  # a key of REFERENCES, or a registry's full citation
                 self.keys.append(k)
             nums.append(self.keys.index(k) + 1)
         return f" [{', '.join(map(str, nums))}]" if nums else ""
@@ -302,8 +248,8 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
         measures += [m for m in dict.fromkeys(table["measure"]) if m not in measures]
     mtxt = []
     for m in measures:
-        text, refs = _MEASURE_TEXT.get(m, (f"the measure '{m}'", []))
-        mtxt.append(text + cite(refs))
+        entry = MEASURE_METHODS.get(m)
+        mtxt.append(entry.description + cite(entry.citations) if entry else f"the measure '{m}'")
     if mtxt:
         para.append(f"Locking was quantified by {_join(mtxt)}.")
 
@@ -315,11 +261,12 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     n_sur = int(params.get("n_surrogates") or 0)
     sur = str(params.get("surrogate") or "")
     if n_sur > 0:
-        text, refs = _SURROGATE_TEXT.get(sur, (f"'{sur}' surrogates", []))
-        per_signal = sur in ("fourier", "aaft", "iaaft", "twin")
-        s = (f"Significance was tested against {n_sur} {text}{cite(refs)}"
-             + (", generated independently for each signal," if per_signal else ",")
-             + f" under the null hypothesis that {_NULL_TEXT.get(sur, _NULL_TEXT[''])}.")
+        entry = SURROGATE_METHODS.get(sur)
+        text = entry.description + cite(entry.citations) if entry else f"'{sur}' surrogates"
+        per_signal = entry is not None and entry.acts_on == "signal"
+        s = (f"Significance was tested against {n_sur} {text}"
+             + (", generated independently for each signal." if per_signal else ".")
+             + (f" Null hypothesis: {entry.null_hypothesis}" if entry else ""))
         para.append(s)
         nl = str(params.get("null_level") or "")
         kinds = params.get("kinds") or {}
@@ -347,9 +294,10 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
             para.append("No correction for multiple testing was applied; the p-values are "
                         "per test." + fam)
         else:
-            text, refs = _CORRECTION_TEXT.get(corr, (f"the '{corr}' correction", []))
+            entry = CORRECTION_METHODS.get(corr)
+            text = entry.description + cite(entry.citations) if entry else f"the '{corr}' correction"
             para.append(f"Every ratio, pair and window searched was corrected for together with "
-                        f"{text}{cite(refs)}.{fam}")
+                        f"{text}.{fam}")
         if alpha is not None:
             para.append(f"A result was called significant when its corrected p-value was below "
                         f"α = {float(alpha):g}.")
@@ -394,7 +342,7 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
 
     if cite.keys:
         lines += ["## References", ""]
-        lines += [f"{i}. {REFERENCES[k]}" for i, k in enumerate(cite.keys, 1)]
+        lines += [f"{i}. {REFERENCES.get(k, k)}" for i, k in enumerate(cite.keys, 1)]
         lines.append("")
     return "\n".join(lines)
 
