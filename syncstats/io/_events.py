@@ -7,9 +7,11 @@ from pathlib import Path
 
 import numpy as np
 
+from syncstats._checks import check_event_times
 from syncstats._errors import SyncstatsInputError
 
-from ._common import _check_file
+from ._common import _check_file, _first_content_line, _is_plain_event_line, _read_text
+from ._tabular import _read_delimited_frame, _read_parquet_frame
 
 __all__ = ["read_events"]
 
@@ -48,15 +50,14 @@ def read_events(path: str | os.PathLike, *, column: str | None = None) -> np.nda
     """
     p = _check_file(path, "event file")
     times, lines = _read_event_values(p, column)
-    return _validate_event_times(times, f"Event file '{p}'" + (f", column {column!r}" if column else ""), lines)
+    where = "event file" if column is None else f"column {column!r} of event file"
+    return _validate_event_times(times, where, str(p), lines)
 
 
 def _read_event_values(p: Path, column: str | None) -> tuple[np.ndarray, np.ndarray | None]:
     """Return raw values and, where known, the file line number of each value."""
     suffix = p.suffix.lower()
     if suffix == ".parquet":
-        from ._tabular import _read_parquet_frame
-
         frame = _read_parquet_frame(p)
         return _column_values(frame, p, column, line_offset=None)
     text = _read_text(p, "event file")
@@ -66,43 +67,10 @@ def _read_event_values(p: Path, column: str | None) -> tuple[np.ndarray, np.ndar
             f"Event file '{p}' has no event times (only blank or '#' lines); write one "
             "time in seconds per line."
         )
-    if column is None and _is_number(first.strip()) and len(first.split()) == 1 and "," not in first:
+    if column is None and _is_plain_event_line(first):
         return _plain_list(text, p)
-    from ._tabular import _read_delimited_frame
-
     frame = _read_delimited_frame(p, text)
     return _column_values(frame, p, column, line_offset=2)
-
-
-def _read_text(p: Path, what: str) -> str:
-    try:
-        text = p.read_text(encoding="utf-8-sig")
-    except UnicodeDecodeError as err:
-        raise SyncstatsInputError(
-            f"The {what} '{p}' is not UTF-8 text (byte {err.start}); save it as a UTF-8 "
-            "text file or pass a file in one of the binary formats."
-        ) from err
-    if not text.strip():
-        raise SyncstatsInputError(
-            f"The {what} '{p}' contains only blank space; check that it was written completely."
-        )
-    return text
-
-
-def _first_content_line(text: str) -> str | None:
-    for line in text.splitlines():
-        s = line.strip()
-        if s and not s.startswith("#"):
-            return s
-    return None
-
-
-def _is_number(s: str) -> bool:
-    try:
-        float(s)
-    except ValueError:
-        return False
-    return True
 
 
 def _plain_list(text: str, p: Path) -> tuple[np.ndarray, np.ndarray]:
@@ -159,50 +127,38 @@ def _column_values(frame, p: Path, column: str | None,
     return values, lines
 
 
-def _validate_event_times(times, where: str, lines: np.ndarray | None = None) -> np.ndarray:
-    """Check event times: 1-D, finite, strictly increasing; return a float64 copy."""
-    try:
-        t = np.array(times, dtype=float)
-    except (TypeError, ValueError) as err:
-        raise SyncstatsInputError(
-            f"{where}: the event times are not numbers; pass a 1-D sequence of seconds."
-        ) from err
-    if t.ndim != 1:
-        raise SyncstatsInputError(
-            f"{where}: event times must be a 1-D sequence of seconds, got shape {t.shape}; "
-            "pass one flat list per event name."
-        )
-    if t.size == 0:
-        raise SyncstatsInputError(
-            f"{where}: there are no event times; give at least one time in seconds."
-        )
+def _validate_event_times(times, where: str, name: str,
+                         lines: np.ndarray | None = None) -> np.ndarray:
+    """The shared event-time check (:func:`syncstats._checks.check_event_times`), with
+    the file line of the first bad time when the times come from a text file."""
+    if lines is not None:
+        _locate_bad_time(np.asarray(times, dtype=float), f"{where} '{name}'", lines)
+    return check_event_times(times, name, where=where)
 
-    def loc(i: int) -> str:
-        return f"line {int(lines[i])}" if lines is not None else f"position {i}"
 
+def _locate_bad_time(t: np.ndarray, where: str, lines: np.ndarray) -> None:
+    """Name the file line of the first non-finite, out-of-order or repeated time."""
     nonfinite = np.flatnonzero(~np.isfinite(t))
     if nonfinite.size:
         i = int(nonfinite[0])
         raise SyncstatsInputError(
-            f"{where}, {loc(i)}: event time {t[i]} is not finite; remove it or give a "
-            "time in seconds."
+            f"{where}, line {int(lines[i])}: event time {t[i]} is not finite; remove it or "
+            "give a time in seconds."
         )
     d = np.diff(t)
-    dup = np.flatnonzero(d == 0)
-    back = np.flatnonzero(d < 0)
-    if back.size and (not dup.size or back[0] < dup[0]):
-        i = int(back[0]) + 1
+    bad = np.flatnonzero(d <= 0)
+    if bad.size:
+        i = int(bad[0]) + 1
+        if d[i - 1] == 0:
+            raise SyncstatsInputError(
+                f"{where}, line {int(lines[i])}: event time {t[i]:g} s occurs twice; remove "
+                "the duplicate (each event time must be unique)."
+            )
         raise SyncstatsInputError(
-            f"{where}, {loc(i)}: event time {t[i]:g} s is earlier than the one before it "
-            f"({t[i - 1]:g} s), so the times are not sorted; sort them in increasing order."
+            f"{where}, line {int(lines[i])}: event time {t[i]:g} s is earlier than the one "
+            f"before it ({t[i - 1]:g} s), so the times are not sorted; sort them in "
+            "increasing order."
         )
-    if dup.size:
-        i = int(dup[0]) + 1
-        raise SyncstatsInputError(
-            f"{where}, {loc(i)}: event time {t[i]:g} s occurs twice; remove the duplicate "
-            "(each event time must be unique)."
-        )
-    return t
 
 
 def _load_event_option(events, origin_s: float = 0.0) -> dict[str, np.ndarray]:
@@ -231,7 +187,7 @@ def _load_event_option(events, origin_s: float = 0.0) -> dict[str, np.ndarray]:
             column = _pick_event_column(p, name)
             out[name] = read_events(p, column=column) - origin_s
         else:
-            out[name] = _validate_event_times(value, f"Parameter events[{name!r}]")
+            out[name] = _validate_event_times(value, "event list", name)
     return out
 
 
@@ -240,16 +196,12 @@ def _pick_event_column(p: Path, name: str) -> str | None:
     if p.suffix.lower() not in {".csv", ".tsv", ".txt", ".parquet"}:
         return None
     if p.suffix.lower() == ".parquet":
-        from ._tabular import _read_parquet_frame
-
         cols = [str(c) for c in _read_parquet_frame(p).columns]
     else:
         text = _read_text(p, "event file")
         first = _first_content_line(text)
-        if first is None or (_is_number(first.strip()) and len(first.split()) == 1):
+        if first is None or _is_plain_event_line(first):
             return None
-        from ._tabular import _read_delimited_frame
-
         cols = [str(c) for c in _read_delimited_frame(p, text, nrows=1).columns]
     if name in cols:
         return name

@@ -23,6 +23,9 @@ __all__: list[str] = []
 
 GAP_MODES = ("error", "split")
 _MAX_RESAMPLE_FACTOR = 10_000
+#: Largest accepted sample magnitude: squares and sums over 1e9 samples (power spectra,
+#: variances) stay far below the float64 maximum of about 1.8e308.
+_MAX_MAGNITUDE = 1e100
 
 
 def _check_gap_options(gaps: str, min_segment_s: float) -> float:
@@ -201,6 +204,14 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
             f"{src.kind} file '{src.path}': signal(s) {', '.join(map(repr, hollow))} have no "
             "valid sample (every value is missing); leave them out with signals=[...]."
         )
+    for n, x in src.signals.items():
+        big = float(np.max(np.abs(x[np.isfinite(x)])))
+        if big > _MAX_MAGNITUDE:
+            raise SyncstatsInputError(
+                f"{src.kind} file '{src.path}', signal {n!r}: values reach {big:.3g}, too "
+                f"large to process without overflow (the limit is {_MAX_MAGNITUDE:.0e} in "
+                "magnitude); rescale the signal, e.g. write it in another unit."
+            )
     g, per_cell, n_cells, good = _cell_layout(src)
     segs, blocks = _segments(src, g, n_cells, good)
     whole = len(segs) == 1 and segs[0][:2] == (0, n_cells)
@@ -240,8 +251,8 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
                 f"min_segment_s={min_segment_s:g} s (the longest is {longest:.6g} s); "
                 "lower min_segment_s or repair the gaps."
             )
-    out = []
-    for i, (a, b, onset) in enumerate(kept, start=1):
+    pieces = []
+    for a, b, onset in kept:
         sigs = {}
         for n, x in src.signals.items():
             m = per_cell[n]
@@ -253,25 +264,42 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
                 piece = resample_poly(piece, up, down, padtype="mean")
             sigs[n] = np.array(piece, dtype=float)
         n_out = min(len(v) for v in sigs.values())
-        sigs = {n: v[:n_out] for n, v in sigs.items()}
+        pieces.append(({n: v[:n_out] for n, v in sigs.items()}, onset, n_out / fs_out))
+    notes += _outside_notes(events, [(onset, dur) for _, onset, dur in pieces])
+    out = []
+    for i, (sigs, onset, dur) in enumerate(pieces, start=1):
         seg_notes = list(notes)
         if whole:
-            seg_name, seg_events, seg_start = rec_name, events, src.start_time
+            seg_name, seg_start = rec_name, src.start_time
         else:
-            dur = n_out / fs_out
             seg_name = f"{rec_name}#{i}"
             seg_notes.append(
                 f"segment {i} of {len(kept)}: {onset:.6g}-{onset + dur:.6g} s of the file, "
                 "a gap-free piece (gaps are never interpolated); times count from its start"
             )
-            seg_events = {}
-            for en, et in events.items():
-                inside = (et >= onset) & (et < onset + dur)
-                seg_events[en] = et[inside] - onset
             seg_start = _shift_iso(src.start_time, onset)
+        seg_events = {en: et[(et >= onset) & (et < onset + dur)] - onset
+                      for en, et in events.items()}
         out.append(Recording(
             name=seg_name, signals=sigs, fs=fs_out, units=dict(src.units),
             start_time=seg_start, events=seg_events, source=str(src.path),
             notes=tuple(seg_notes),
         ))
     return out
+
+
+def _outside_notes(events: dict[str, np.ndarray], spans: list[tuple[float, float]]) -> list[str]:
+    """One note per event list with times outside every analysed span [onset, onset + dur)."""
+    notes = []
+    for name, times in events.items():
+        inside = np.zeros(len(times), dtype=bool)
+        for onset, dur in spans:
+            inside |= (times >= onset) & (times < onset + dur)
+        lost = int((~inside).sum())
+        if lost:
+            notes.append(
+                f"events {name!r}: {lost} of {len(times)} event times lie outside the analysed "
+                "signal span (before its start, after its end, or in a gap or dropped piece) "
+                "and were dropped"
+            )
+    return notes

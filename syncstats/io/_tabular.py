@@ -20,7 +20,7 @@ import pandas as pd
 
 from syncstats._errors import SyncstatsInputError
 
-from ._common import _Block, _rate_fraction, _select, _Source
+from ._common import _Block, _is_number, _rate_fraction, _read_text, _select, _short, _Source
 
 __all__: list[str] = []
 
@@ -72,8 +72,6 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
     ``first_data_line`` (file line number of the first data row).
     """
     if text is None:
-        from ._events import _read_text
-
         text = _read_text(p, "file")
     skip = 0
     lines: list[str] = []
@@ -93,7 +91,7 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
         )
     delimiter = _sniff_delimiter(p, lines)
     header = _split_header(lines[0], delimiter)
-    if all(_is_float(h) for h in header):
+    if all(_is_number(h) for h in header):
         raise SyncstatsInputError(
             f"File '{p}' has no header row (its first row {lines[0][:60]!r} is all "
             "numbers); add a first row that names the columns, e.g. 'time_s,ecg,resp'."
@@ -157,19 +155,6 @@ def _read_parquet_frame(p: Path) -> pd.DataFrame:
     frame.columns = [str(c) for c in frame.columns]
     frame.attrs["first_data_line"] = None
     return frame
-
-
-def _is_float(s: str) -> bool:
-    try:
-        float(s)
-    except ValueError:
-        return False
-    return True
-
-
-def _short(err: BaseException) -> str:
-    msg = " ".join(str(err).split())
-    return (msg[:160] + "...") if len(msg) > 160 else (msg or type(err).__name__)
 
 
 # --------------------------------------------------------------------------- frame -> source
