@@ -144,8 +144,8 @@ def _records_to_read(layout: _Layout, p: Path, allow_truncated: bool,
             f"{what}, so it holds no data to analyse; copy or export it again."
         )
     notes.append(
-        f"TRUNCATED: {what}; only the first {have} records were analysed and the remaining "
-        f"{want - have} records (the end of the recording) are missing"
+        f"cut-off file: {what}; only the first {have} records were analysed and the last "
+        f"{want - have} declared records are missing"
     )
     return have
 

@@ -15,6 +15,10 @@ from ._tabular import _read_delimited_frame, _read_parquet_frame
 
 __all__ = ["read_events"]
 
+#: Largest magnitude of an event time (s), about 31,700 years: beyond it the intervals
+#: between events can no longer be resolved (and their differences may overflow).
+_MAX_EVENT_TIME_S = 1e12
+
 
 def read_events(path: str | os.PathLike, *, column: str | None = None) -> np.ndarray:
     """Read event times (seconds) from a text list or from one column of a table.
@@ -48,18 +52,25 @@ def read_events(path: str | os.PathLike, *, column: str | None = None) -> np.nda
     >>> read_events(p).tolist()
     [0.81, 1.62, 2.4]
     """
+    return _read_event_file(path, column)[0]
+
+
+def _read_event_file(path, column: str | None = None) -> tuple[np.ndarray, list[str]]:
+    """Checked event times of a file, and the notes of the library that read it."""
     p = _check_file(path, "event file")
-    times, lines = _read_event_values(p, column)
+    times, lines, notes = _read_event_values(p, column)
     where = "event file" if column is None else f"column {column!r} of event file"
-    return _validate_event_times(times, where, str(p), lines)
+    return _validate_event_times(times, where, str(p), lines), [
+        f"event file '{p.name}': {n}" for n in notes]
 
 
-def _read_event_values(p: Path, column: str | None) -> tuple[np.ndarray, np.ndarray | None]:
-    """Return raw values and, where known, the file line number of each value."""
+def _read_event_values(p: Path, column: str | None
+                       ) -> tuple[np.ndarray, np.ndarray | None, list[str]]:
+    """Raw values, the file line number of each value where known, and reader notes."""
     suffix = p.suffix.lower()
     if suffix == ".parquet":
         frame = _read_parquet_frame(p)
-        return _column_values(frame, p, column, line_offset=None)
+        return (*_column_values(frame, p, column, line_offset=None), frame.attrs["notes"])
     text = _read_text(p, "event file")
     first = _first_content_line(text)
     if first is None:
@@ -68,9 +79,9 @@ def _read_event_values(p: Path, column: str | None) -> tuple[np.ndarray, np.ndar
             "time in seconds per line."
         )
     if column is None and _is_plain_event_line(first):
-        return _plain_list(text, p)
+        return (*_plain_list(text, p), [])
     frame = _read_delimited_frame(p, text)
-    return _column_values(frame, p, column, line_offset=2)
+    return (*_column_values(frame, p, column, line_offset=2), frame.attrs["notes"])
 
 
 def _plain_list(text: str, p: Path) -> tuple[np.ndarray, np.ndarray]:
@@ -131,9 +142,20 @@ def _validate_event_times(times, where: str, name: str,
                          lines: np.ndarray | None = None) -> np.ndarray:
     """The shared event-time check (:func:`syncstats._checks.check_event_times`), with
     the file line of the first bad time when the times come from a text file."""
-    if lines is not None:
-        _locate_bad_time(np.asarray(times, dtype=float), f"{where} '{name}'", lines)
-    return check_event_times(times, name, where=where)
+    with np.errstate(over="ignore", invalid="ignore"):  # huge times: refused below
+        if lines is not None:
+            _locate_bad_time(np.asarray(times, dtype=float), f"{where} '{name}'", lines)
+        t = check_event_times(times, name, where=where)
+    far = np.flatnonzero(np.abs(t) > _MAX_EVENT_TIME_S)
+    if far.size:
+        i = int(far[0])
+        at = f"line {int(lines[i])}" if lines is not None else f"position {i}"
+        raise SyncstatsInputError(
+            f"{where} '{name}', {at}: the event time {t[i]:.6g} s lies beyond "
+            f"{_MAX_EVENT_TIME_S:.0e} s (about 31,700 years); give event times in seconds "
+            "from the start of the recording."
+        )
+    return t
 
 
 def _locate_bad_time(t: np.ndarray, where: str, lines: np.ndarray) -> None:
@@ -161,19 +183,21 @@ def _locate_bad_time(t: np.ndarray, where: str, lines: np.ndarray) -> None:
         )
 
 
-def _load_event_option(events, origin_s: float = 0.0) -> dict[str, np.ndarray]:
+def _load_event_option(events, origin_s: float, notes: list[str]) -> dict[str, np.ndarray]:
     """Read the ``events=`` option: a path, or a mapping name -> path or array.
 
     Times from files are taken in the clock of the signal file and shifted by
     ``origin_s`` (the time of its first sample); arrays are taken as given (seconds
-    from the first sample).
+    from the first sample). Reader notes are appended to ``notes``.
     """
     if events is None:
         return {}
     out: dict[str, np.ndarray] = {}
     if isinstance(events, (str, os.PathLike)):
         p = _check_file(events, "event file")
-        out[p.stem] = read_events(p) - origin_s
+        times, file_notes = _read_event_file(p)
+        out[p.stem] = times - origin_s
+        notes += file_notes
         return out
     if not isinstance(events, Mapping):
         raise SyncstatsInputError(
@@ -184,8 +208,9 @@ def _load_event_option(events, origin_s: float = 0.0) -> dict[str, np.ndarray]:
         name = str(key)
         if isinstance(value, (str, os.PathLike)):
             p = _check_file(value, "event file")
-            column = _pick_event_column(p, name)
-            out[name] = read_events(p, column=column) - origin_s
+            times, file_notes = _read_event_file(p, _pick_event_column(p, name))
+            out[name] = times - origin_s
+            notes += file_notes
         else:
             out[name] = _validate_event_times(value, "event list", name)
     return out

@@ -19,7 +19,7 @@ from ._common import (
     _Source,
 )
 from ._edf import _load_edf
-from ._events import _load_event_option, read_events
+from ._events import _load_event_option, _read_event_file
 from ._grid import _check_gap_options, _finish
 from ._recording import Recording
 from ._tabular import _load_delimited, _load_parquet
@@ -107,10 +107,10 @@ def _load(p: Path, fmt: str, *, fs, signals, time_column, annotation,
                     f"File '{p}' is a list of event times (one number per line), so it has "
                     "no signals or time column; leave signals= and time_column= out."
                 )
-            times = read_events(p)
+            times, notes = _read_event_file(p)
             return _Source(path=p, name=p.stem, kind="event list", signals={}, rates={},
                            events={p.stem: times},
-                           notes=[f"read '{p.name}' as a list of event times (s)"])
+                           notes=[f"read '{p.name}' as a list of event times (s)", *notes])
         return _load_delimited(p, fs=fs, time_column=time_column, signals=signals)
     hint = "the header gives the sampling rates (use resample_to=HZ to change them)."
     _reject("fs", fs, fmt.upper(), p, hint)
@@ -209,7 +209,7 @@ def read_segments(
     p, fmt = _resolve(path, format)
     src = _load(p, fmt, fs=fs, signals=signals, time_column=time_column,
                 annotation=annotation, allow_truncated=allow_truncated)
-    extra = _load_event_option(events, src.time_origin_s)
+    extra = _load_event_option(events, src.time_origin_s, src.notes)
     return _finish(src, name=name, resample_to=resample, gaps=gaps,
                    min_segment_s=min_seg, extra_events=extra)
 

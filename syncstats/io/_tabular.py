@@ -20,7 +20,17 @@ import pandas as pd
 
 from syncstats._errors import SyncstatsInputError
 
-from ._common import _Block, _is_number, _rate_fraction, _read_text, _select, _short, _Source
+from ._common import (
+    _Block,
+    _is_number,
+    _library_notes,
+    _library_warnings,
+    _rate_fraction,
+    _read_text,
+    _select,
+    _short,
+    _Source,
+)
 
 __all__: list[str] = []
 
@@ -34,6 +44,12 @@ TIME_COLUMN_NAMES = (
 TIME_COLUMN_NAMES_MS = ("time_ms", "ms", "time (ms)", "time[ms]", "time [ms]", "t_ms")
 
 _DELIMITERS = ("\t", ",", ";", "|")
+#: Longest header row accepted (characters): a header names columns, and a longer first
+#: row is a sign of a wrong file or missing line breaks.
+_MAX_HEADER_CHARS = 1_000_000
+#: Largest magnitude of a time value (s), about 31,700 years: beyond it the steps
+#: between samples can no longer be resolved in float64.
+_MAX_TIME_S = 1e12
 _REL_JITTER = 0.01  # sampling interval may vary by 1 % (plus time rounding)
 _GAP_FACTOR = 1.5   # a step longer than 1.5 intervals means missing samples
 
@@ -49,7 +65,7 @@ def _sniff_delimiter(p: Path, lines: list[str]) -> str | None:
         return "\t"
     sample = lines[:20]
     for d in _DELIMITERS:
-        counts = {len(next(csv.reader([ln], delimiter=d))) for ln in sample}
+        counts = {len(_fields(p, ln, d)) for ln in sample}
         if len(counts) == 1 and counts.pop() > 1:
             return d
     ws = {len(ln.split()) for ln in sample}
@@ -58,10 +74,23 @@ def _sniff_delimiter(p: Path, lines: list[str]) -> str | None:
     return ","
 
 
-def _split_header(line: str, delimiter: str | None) -> list[str]:
+def _fields(p: Path, line: str, delimiter: str) -> list[str]:
+    """One line split by the csv module; its errors (a cell over its size limit) become
+    a sentence."""
+    try:
+        return next(csv.reader([line], delimiter=delimiter))
+    except csv.Error as err:
+        raise SyncstatsInputError(
+            f"File '{p}' has a line the table reader cannot split ({_short(err)}), near "
+            f"{line[:40]!r}; no sample value is that long, so check that the file is a "
+            "table with one row per line."
+        ) from err
+
+
+def _split_header(line: str, delimiter: str | None, p: Path) -> list[str]:
     if delimiter is None:
         return line.split()
-    return [c.strip() for c in next(csv.reader([line], delimiter=delimiter))]
+    return [c.strip() for c in _fields(p, line, delimiter)]
 
 
 def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None = None
@@ -89,8 +118,14 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
             f"File '{p}' has no header row and no data (only blank or '#' lines); write a "
             "header row naming the columns, then one row per sample."
         )
+    if len(lines[0]) > _MAX_HEADER_CHARS:
+        raise SyncstatsInputError(
+            f"File '{p}' has a first row of {len(lines[0]):,} characters, longer than the "
+            f"{_MAX_HEADER_CHARS:,} accepted for a header row; check that it is a table "
+            "with a header row naming the columns and one row per line."
+        )
     delimiter = _sniff_delimiter(p, lines)
-    header = _split_header(lines[0], delimiter)
+    header = _split_header(lines[0], delimiter, p)
     if all(_is_number(h) for h in header):
         raise SyncstatsInputError(
             f"File '{p}' has no header row (its first row {lines[0][:60]!r} is all "
@@ -102,9 +137,10 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
             f"File '{p}' names column(s) {', '.join(map(repr, dupes))} more than once in "
             "its header; give every column a unique name."
         )
+    notes: list[str] = []
     try:
         with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always", pd.errors.ParserWarning)
+            warnings.simplefilter("always")
             frame = pd.read_csv(
                 io.StringIO(text, newline=None),
                 skiprows=skip,
@@ -120,9 +156,15 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
         ) from err
     if any(issubclass(w.category, pd.errors.ParserWarning) for w in caught):
         _check_extra_fields(p, text.splitlines(), skip, delimiter, len(header))
+        notes.append("some rows have more fields than the header; the extra fields are "
+                     "empty and were ignored")
+    notes += _library_notes([w for w in caught
+                             if not issubclass(w.category, pd.errors.ParserWarning)],
+                            "the table reader (pandas)")
     frame.columns = [str(h) for h in header] if len(header) == frame.shape[1] else [
         str(c).strip() for c in frame.columns]
     frame.attrs["first_data_line"] = skip + 2
+    frame.attrs["notes"] = notes
     return frame
 
 
@@ -132,7 +174,7 @@ def _check_extra_fields(p: Path, lines: list[str], skip: int, delimiter: str | N
     for i in range(skip + 1, len(lines)):
         if not lines[i].strip():
             continue
-        fields = _split_header(lines[i], delimiter)
+        fields = _split_header(lines[i], delimiter, p)
         if len(fields) > width and any(f.strip() for f in fields[width:]):
             raise SyncstatsInputError(
                 f"File '{p}', line {i + 1} has {len(fields)} fields but the header names "
@@ -142,8 +184,10 @@ def _check_extra_fields(p: Path, lines: list[str], skip: int, delimiter: str | N
 
 def _read_parquet_frame(p: Path) -> pd.DataFrame:
     """Read a Parquet file with pandas/pyarrow; a named or date-time index becomes a column."""
+    notes: list[str] = []
     try:
-        frame = pd.read_parquet(p)
+        with _library_warnings(notes, "the Parquet reader (pandas/pyarrow)"):
+            frame = pd.read_parquet(p)
     except Exception as err:  # pyarrow raises several unrelated types
         raise SyncstatsInputError(
             f"File '{p}' could not be read as Parquet ({_short(err)}); check that it is a "
@@ -154,6 +198,7 @@ def _read_parquet_frame(p: Path) -> pd.DataFrame:
             frame = frame.reset_index()
     frame.columns = [str(c) for c in frame.columns]
     frame.attrs["first_data_line"] = None
+    frame.attrs["notes"] = notes
     return frame
 
 
@@ -283,6 +328,14 @@ def _analyse_time(frame: pd.DataFrame, t: np.ndarray, col: str, p: Path, fs: flo
     """Sampling rate and continuous runs (row ranges) from a time column in seconds."""
     n = len(t)
     notes: list[str] = []
+    far = np.flatnonzero(np.abs(t) > _MAX_TIME_S)
+    if far.size:
+        i = int(far[0])
+        raise SyncstatsInputError(
+            f"File '{p}', time column {col!r}, {_where_row(frame, i)}: the time {t[i]:.6g} s "
+            f"lies beyond {_MAX_TIME_S:.0e} s (about 31,700 years); write the times in "
+            "seconds from the start of the recording."
+        )
     if n < 2:
         if fs is None:
             raise SyncstatsInputError(
@@ -378,7 +431,7 @@ def _signal_values(frame: pd.DataFrame, col: str, p: Path) -> np.ndarray:
 
 def _frame_to_source(frame: pd.DataFrame, p: Path, kind: str, *, fs: float | None,
                      time_column: str | None, signals: list[str] | None) -> _Source:
-    notes: list[str] = []
+    notes: list[str] = list(frame.attrs.get("notes", []))
     if frame.shape[0] == 0:
         raise SyncstatsInputError(
             f"File '{p}' has a header but no data rows; write one row per sample below "
