@@ -368,7 +368,7 @@ def test_fuzz_csv_only_input_errors(tmp_path, edits):
 
 def test_empty_extra_fields_are_noted(tmp_path):
     path = tmp_path / "trail.csv"
-    path.write_text("t,x\n" + "".join(f"{k / 10},{k},\n" for k in range(50)))
+    path.write_text("t,x\n" + "".join(f"{k / 10},{k},,\n" for k in range(50)))  # 2 extra
     rec = read_recording(path)
     np.testing.assert_array_equal(rec.signals["x"], np.arange(50.0))
     assert any("extra fields are empty and were ignored" in n for n in rec.notes)
