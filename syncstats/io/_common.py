@@ -207,17 +207,17 @@ def _check_name_list(values: str | Sequence[str] | None, param: str) -> list[str
         names = [str(v) for v in values]
     except TypeError as err:
         raise SyncstatsInputError(
-            f"Parameter {param}={values!r} is not a name or a list of names; pass e.g. "
-            f"{param}=['ecg', 'resp']."
+            f"The {param} option {values!r} is not a name or a list of names; give "
+            "one signal name or several, e.g. ecg and resp."
         ) from err
     if not names:
         raise SyncstatsInputError(
-            f"Parameter {param} is an empty list; pass at least one name or leave it as None."
+            f"The {param} option is an empty list; give at least one name, or leave the option out."
         )
     dupes = sorted({n for n in names if names.count(n) > 1})
     if dupes:
         raise SyncstatsInputError(
-            f"Parameter {param} names {', '.join(map(repr, dupes))} more than once; list "
+            f"The {param} option names {', '.join(map(repr, dupes))} more than once; list "
             "each name once."
         )
     return names
@@ -232,8 +232,8 @@ def _select(available: Sequence[str], wanted: Sequence[str] | None, path: Path,
     if missing:
         raise SyncstatsInputError(
             f"File '{path}' has no {what} named {', '.join(map(repr, missing))}; the "
-            f"available {what}s are {', '.join(map(repr, available)) or '(none)'}, pass "
-            f"some of those to signals=."
+            f"available {what}s are {', '.join(map(repr, available)) or '(none)'}; choose "
+            "signals from those."
         )
     return list(wanted)
 

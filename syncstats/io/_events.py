@@ -111,8 +111,8 @@ def _column_values(frame, p: Path, column: str | None,
         if len(cols) != 1:
             raise SyncstatsInputError(
                 f"Event file '{p}' has {len(cols)} columns ({', '.join(map(repr, cols))}); "
-                "say which one holds the times, e.g. events={'beats': path} naming the "
-                "column, or read_events(path, column=NAME)."
+                "name the column that holds the times (an event name equal to a column name "
+                "picks that column)."
             )
         column = cols[0]
     if column not in cols:
@@ -201,8 +201,8 @@ def _load_event_option(events, origin_s: float, notes: list[str]) -> dict[str, n
         return out
     if not isinstance(events, Mapping):
         raise SyncstatsInputError(
-            f"Parameter events={events!r} is neither a path nor a mapping; pass the path "
-            "of an event list or a dict such as {'rpeaks': 'beats.txt'}."
+            f"The events option {events!r} is neither a file path nor a list of named "
+            "event sources; give an event file, or name each event list with its file or times."
         )
     for key, value in events.items():
         name = str(key)

@@ -55,8 +55,8 @@ def _resolve(path, fmt: str | None) -> tuple[Path, str]:
     if fmt is not None:
         if fmt not in _FORMATS:
             raise SyncstatsInputError(
-                f"Parameter format={fmt!r} is not supported; pass one of "
-                f"{', '.join(map(repr, _FORMATS))} or leave it None to go by the suffix."
+                f"The format option {fmt!r} is not supported; choose one of "
+                f"{', '.join(map(repr, _FORMATS))}, or leave it out to go by the suffix."
             )
         if fmt == "wfdb":
             return p, fmt
@@ -68,8 +68,8 @@ def _resolve(path, fmt: str | None) -> tuple[Path, str]:
             return p, "wfdb"
         raise SyncstatsInputError(
             f"File '{p}' has the suffix {p.suffix or '(none)'!r}, which is not a format "
-            f"syncstats reads; accepted suffixes are {', '.join(ACCEPTED_SUFFIXES)} (or "
-            "pass format=)."
+            f"syncstats reads; accepted suffixes are {', '.join(ACCEPTED_SUFFIXES)}; rename "
+            "the file or name its format."
         )
     kind = ACCEPTED_SUFFIXES[suffix]
     if kind == "wfdb":
@@ -82,7 +82,7 @@ def _resolve(path, fmt: str | None) -> tuple[Path, str]:
 def _reject(option: str, value, fmt: str, p: Path, hint: str) -> None:
     if value is not None:
         raise SyncstatsInputError(
-            f"Parameter {option}= does not apply to {fmt} file '{p}'; {hint}"
+            f"The {option} option does not apply to {fmt} file '{p}'; {hint}"
         )
 
 
@@ -93,28 +93,28 @@ def _load(p: Path, fmt: str, *, fs, signals, time_column, annotation,
     annotation = _check_name_list(annotation, "annotation")
     if time_column is not None and not isinstance(time_column, str):
         raise SyncstatsInputError(
-            f"Parameter time_column={time_column!r} is not a column name; pass the name "
-            "of the column with the sample times as a str."
+            f"The time column option {time_column!r} is not a column name; give the "
+            "name of the column with the sample times."
         )
     if fmt in ("table", "parquet"):
         _reject("annotation", annotation, "a table", p,
-                "pass event lists with events= instead.")
+                "give event lists as events instead.")
         if fmt == "parquet":
             return _load_parquet(p, fs=fs, time_column=time_column, signals=signals)
         if p.suffix.lower() == ".txt" and _is_event_list(p):
             if signals is not None or time_column is not None:
                 raise SyncstatsInputError(
                     f"File '{p}' is a list of event times (one number per line), so it has "
-                    "no signals or time column; leave signals= and time_column= out."
+                    "no signals or time column; leave out the signal and time-column choices."
                 )
             times, notes = _read_event_file(p)
             return _Source(path=p, name=p.stem, kind="event list", signals={}, rates={},
                            events={p.stem: times},
                            notes=[f"read '{p.name}' as a list of event times (s)", *notes])
         return _load_delimited(p, fs=fs, time_column=time_column, signals=signals)
-    hint = "the header gives the sampling rates (use resample_to=HZ to change them)."
-    _reject("fs", fs, fmt.upper(), p, hint)
-    _reject("time_column", time_column, fmt.upper(), p, "its header defines the time axis.")
+    hint = "the header gives the sampling rates (give a common rate to resample to instead)."
+    _reject("sampling rate", fs, fmt.upper(), p, hint)
+    _reject("time column", time_column, fmt.upper(), p, "its header defines the time axis.")
     if fmt == "edf":
         return _load_edf(p, signals=signals, annotation=annotation,
                          allow_truncated=allow_truncated)

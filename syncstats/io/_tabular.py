@@ -191,7 +191,7 @@ def _read_parquet_frame(p: Path) -> pd.DataFrame:
     except Exception as err:  # pyarrow raises several unrelated types
         raise SyncstatsInputError(
             f"File '{p}' could not be read as Parquet ({_short(err)}); check that it is a "
-            "complete Parquet file (pandas.DataFrame.to_parquet writes one)."
+            "complete Parquet file."
         ) from err
     if not isinstance(frame.index, pd.RangeIndex):
         if frame.index.name is not None or isinstance(frame.index, pd.DatetimeIndex):
@@ -239,7 +239,7 @@ def _find_time_column(cols: list[str], time_column: str | None, p: Path) -> str 
     if time_column is not None:
         if time_column not in cols:
             raise SyncstatsInputError(
-                f"File '{p}' has no column {time_column!r} for time_column=; its columns "
+                f"File '{p}' has no column {time_column!r} to use as the time column; its columns "
                 f"are {', '.join(map(repr, cols))}, pick one of those."
             )
         return time_column
@@ -248,7 +248,7 @@ def _find_time_column(cols: list[str], time_column: str | None, p: Path) -> str 
     if len(found) > 1:
         raise SyncstatsInputError(
             f"File '{p}' has several time-like columns ({', '.join(map(repr, found))}); "
-            "say which one holds the sample times with time_column=NAME."
+            "name the one that holds the sample times."
         )
     return found[0] if found else None
 
@@ -287,8 +287,8 @@ def _time_values(frame: pd.DataFrame, col: str, p: Path) -> tuple[np.ndarray, st
         except (ValueError, TypeError) as err:
             raise SyncstatsInputError(
                 f"File '{p}': time column {col!r} holds neither numbers of seconds nor ISO "
-                f"8601 date-times ({_short(err)}); write the times in seconds, or pass "
-                "fs=HZ and time_column= naming another column."
+                f"8601 date-times ({_short(err)}); write the times in seconds, or give "
+                "the sampling rate and name another time column."
             ) from err
     if stamps.isna().any():
         i = int(np.flatnonzero(stamps.isna().to_numpy())[0])
@@ -340,7 +340,7 @@ def _analyse_time(frame: pd.DataFrame, t: np.ndarray, col: str, p: Path, fs: flo
         if fs is None:
             raise SyncstatsInputError(
                 f"File '{p}' has a single row, so its time column {col!r} cannot give a "
-                "sampling rate; add rows or pass fs=HZ."
+                "sampling rate; add rows or give the sampling rate."
             )
         return fs, [(0, n)], notes
     dt = np.diff(t)
@@ -363,14 +363,15 @@ def _analyse_time(frame: pd.DataFrame, t: np.ndarray, col: str, p: Path, fs: flo
     if counts.sum() == 0:
         raise SyncstatsInputError(
             f"File '{p}': the time column {col!r} has no two consecutive regular samples; "
-            "check the time column (seconds) or pass fs=HZ for a regular grid."
+            "check the time column (seconds) or give the sampling rate for a regular grid."
         )
     fs_est = float(counts.sum() / spans.sum())
     if fs is not None:
         if abs(fs_est - fs) > _REL_JITTER * fs:
             raise SyncstatsInputError(
-                f"File '{p}': fs={fs:g} Hz disagrees with the time column {col!r}, whose "
-                f"steps give {fs_est:.6g} Hz; drop fs= to use the time column, or fix it."
+                f"File '{p}': the sampling rate given, {fs:g} Hz, disagrees with the time column "
+                f"{col!r}, whose steps give {fs_est:.6g} Hz; leave the rate out to use the "
+                "time column, or fix it."
             )
         rate = fs
     else:
@@ -402,7 +403,7 @@ def _signal_values(frame: pd.DataFrame, col: str, p: Path) -> np.ndarray:
     if pd.api.types.is_bool_dtype(raw):
         raise SyncstatsInputError(
             f"File '{p}': column {col!r} holds true/false values, not numbers; exclude it "
-            "with signals=[...] or write it as numbers."
+            "of the chosen signals or write it as numbers."
         )
     if pd.api.types.is_numeric_dtype(raw):
         x = raw.to_numpy(dtype=float, na_value=np.nan)
@@ -416,7 +417,7 @@ def _signal_values(frame: pd.DataFrame, col: str, p: Path) -> np.ndarray:
             raise SyncstatsInputError(
                 f"File '{p}', column {col!r}, {_where_row(frame, i)}: {raw.iloc[i]!r} is not "
                 f"a number{hint}; fix the value (leave the cell empty for a missing sample), "
-                "or leave this column out with signals=[...]."
+                "or leave this column out of the chosen signals."
             )
         x = num.to_numpy(dtype=float, na_value=np.nan)
     inf = np.flatnonzero(np.isinf(x))
@@ -443,20 +444,19 @@ def _frame_to_source(frame: pd.DataFrame, p: Path, kind: str, *, fs: float | Non
     if tcol is None and fs is None:
         raise SyncstatsInputError(
             f"File '{p}' has no time column (looked for {', '.join(TIME_COLUMN_NAMES[:4])}, "
-            "...) and no sampling rate was given; pass fs=HZ, or time_column=NAME for "
-            "the column with the sample times in seconds."
+            "...) and no sampling rate was given; give the sampling rate, or name the "
+            "column with the sample times in seconds."
         )
     available = [c for c in cols if c != tcol]
     if signals is not None and tcol is not None and tcol in signals:
         raise SyncstatsInputError(
             f"File '{p}': {tcol!r} is the time column and cannot also be a signal; leave "
-            "it out of signals=, or name another time column with time_column=."
+            "it out of the chosen signals, or name another time column."
         )
     if not available:
         raise SyncstatsInputError(
             f"File '{p}' has no signal columns besides the time column {tcol!r}; if it is "
-            "a list of event times, read it with read_events(path, column=...) or pass it "
-            "as events=."
+            "a list of event times, give it as an event list instead."
         )
     chosen = _select(available, signals, p, "column")
     start_time = None

@@ -167,7 +167,7 @@ def _read_annotation(base: Path, ext: str, fs: float, notes: list[str]) -> np.nd
     if not path.is_file():
         raise SyncstatsInputError(
             f"WFDB record '{base}' has no annotation file '{path.name}'; pass the "
-            "extension of an existing annotation file to annotation= (e.g. 'atr')."
+            "extension of an existing annotation file as the annotation (e.g. 'atr')."
         )
     try:
         with _library_warnings(notes, "the WFDB annotation reader (wfdb)"):
@@ -182,7 +182,7 @@ def _read_annotation(base: Path, ext: str, fs: float, notes: list[str]) -> np.nd
     if samples.size == 0:
         raise SyncstatsInputError(
             f"WFDB annotation file '{path}' holds no annotations; pass another annotation "
-            "extension or leave annotation= out."
+            "extension or leave the annotation out."
         )
     ann_fs = float(ann.fs) if getattr(ann, "fs", None) else fs
     beat = np.array([s in BEAT_SYMBOLS for s in symbols], dtype=bool)
