@@ -115,12 +115,12 @@ def _frames_to_read(header, base: Path, index: list[int], allow_truncated: bool,
     """Frames to read (None: all the header declares), from the sizes of the signal files
     that hold the chosen signals; a file shorter than the header says is refused unless
     ``allow_truncated`` (then the complete frames are read, with a note)."""
-    n = header.sig_len
-    if not n:
+    n = getattr(header, "sig_len", None)
+    if not n or not getattr(header, "file_name", None):  # multi-segment: the library checks
         return None
     spf = list(header.samps_per_frame or [1] * header.n_sig)
     files: dict[str, list[int]] = {}
-    for i, name in enumerate(header.file_name or []):
+    for i, name in enumerate(header.file_name):
         files.setdefault(name, []).append(i)
     have = n
     short: list[str] = []
@@ -143,7 +143,7 @@ def _frames_to_read(header, base: Path, index: list[int], allow_truncated: bool,
             short.append(f"'{path}' holds {frames} of the {n} samples per signal "
                          "(frames) the header declares")
             have = min(have, frames)
-        elif frames > n and (frames - n) * frame_bits >= 8 * 4:
+        elif frames > n:
             notes.append(f"WFDB signal file '{path.name}' holds {frames - n} frames after "
                          f"the {n} the header declares; they were ignored")
     if not short:

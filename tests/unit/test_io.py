@@ -665,6 +665,7 @@ def test_bad_fs(tmp_path, fs):
     ({"signals": []}, r"signals option is an empty list"),
     ({"signals": ["a", "a"]}, r"more than once"),
     ({"format": "hdf5"}, r"format option 'hdf5'"),
+    ({"allow_truncated": "maybe"}, r"allow_truncated must be true or false"),
     ({"events": 3.5}, r"events option 3.5 is neither a file path"),
     ({"events": {"b": [2.0, 1.0, 3.0]}}, r"event list 'b' is not sorted \(first at 1 s\)"),
     ({"events": {"b": [1.0, 2.0]}}, r"event list 'b' needs at least 3 event times"),
