@@ -725,3 +725,22 @@ def test_io_imports_no_other_syncstats_layer():
                     assert not alias.name.startswith("syncstats") or \
                         alias.name.startswith("syncstats.io"), f"{path.name} imports {alias.name}"
     assert os.path.isdir(folder)
+
+
+def test_io_modules_import_each_other_without_cycles():
+    folder = Path(__file__).resolve().parents[2] / "syncstats" / "io"
+    deps = {}
+    for path in folder.glob("*.py"):
+        deps[path.stem] = {node.module for node in ast.walk(ast.parse(path.read_text()))
+                           if isinstance(node, ast.ImportFrom) and node.level == 1 and node.module}
+    done: set[str] = set()
+
+    def visit(mod, stack):
+        assert mod not in stack, f"import cycle: {' -> '.join([*stack, mod])}"
+        if mod not in done:
+            for dep in deps.get(mod, ()):
+                visit(dep, [*stack, mod])
+            done.add(mod)
+
+    for mod in deps:
+        visit(mod, [])
