@@ -131,7 +131,7 @@ def _check_file(path: str | os.PathLike, what: str = "file") -> Path:
         )
     if not p.is_file():
         raise SyncstatsInputError(
-            f"The {what} '{p}' is not a regular file (is it a folder?); pass the path "
+            f"The {what} '{p}' is not a regular file (is it a folder?); give the path "
             "of the file itself."
         )
     if p.stat().st_size == 0:

@@ -45,7 +45,7 @@ def _record_base(p: Path) -> Path:
     if not header.is_file():
         raise SyncstatsInputError(
             f"WFDB record '{base}' has no header file '{header.name}' beside it; a WFDB "
-            "record needs its .hea header (pass the .hea path, or the record path without "
+            "record needs its .hea header (give the .hea path, or the record path without "
             "extension)."
         )
     return base
@@ -166,7 +166,7 @@ def _read_annotation(base: Path, ext: str, fs: float, notes: list[str]) -> np.nd
     path = base.with_name(f"{base.name}.{ext}")
     if not path.is_file():
         raise SyncstatsInputError(
-            f"WFDB record '{base}' has no annotation file '{path.name}'; pass the "
+            f"WFDB record '{base}' has no annotation file '{path.name}'; give the "
             "extension of an existing annotation file as the annotation (e.g. 'atr')."
         )
     try:
@@ -181,7 +181,7 @@ def _read_annotation(base: Path, ext: str, fs: float, notes: list[str]) -> np.nd
     symbols = list(ann.symbol or [])
     if samples.size == 0:
         raise SyncstatsInputError(
-            f"WFDB annotation file '{path}' holds no annotations; pass another annotation "
+            f"WFDB annotation file '{path}' holds no annotations; give another annotation "
             "extension or leave the annotation out."
         )
     ann_fs = float(ann.fs) if getattr(ann, "fs", None) else fs
