@@ -31,9 +31,10 @@ __all__: list[str] = []
 #: premature, fusion, escape, paced, unclassifiable and R-on-T beats). Common practice.
 BEAT_SYMBOLS = frozenset("NLRBaVFJASEj/Qenfr")
 
-#: Bits per sample of the uncompressed WFDB signal formats (WFDB header format
-#: specification, "signal specification lines": 212 packs two 12-bit samples in 3 bytes,
-#: 310/311 three 10-bit samples in 4 bytes). Compressed formats are not checked here.
+#: Bits per sample of the uncompressed WFDB signal formats (WFDB signal-file format
+#: documentation, recalled from memory; 16 is confirmed by the tests with files wfdb
+#: writes): 212 packs two 12-bit samples in 3 bytes, 310/311 three 10-bit samples in 4
+#: bytes. Compressed formats are not checked here (the library checks them).
 _FORMAT_BITS = {"8": 8, "16": 16, "24": 24, "32": 32, "61": 16, "80": 8, "160": 16,
                 "212": 12, "310": Fraction(32, 3), "311": Fraction(32, 3)}
 
