@@ -1,7 +1,7 @@
 """Readers: recording files (CSV/TSV, Parquet, EDF/BDF, WFDB, event lists) -> Recording.
 
 The lowest layer of syncstats; it imports nothing from the other layers except
-:mod:`syncstats._errors`. Every reader returns :class:`Recording` objects whose signals
+:mod:`syncstats._errors` and the shared input checks :mod:`syncstats._checks`. Every reader returns :class:`Recording` objects whose signals
 share one sampling grid and contain no gaps: several rates are resampled only when
 ``resample_to`` is given, and gaps are never filled (:func:`read_segments` cuts at them).
 """

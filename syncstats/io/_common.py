@@ -6,8 +6,10 @@ one sampling grid and cuts it at gaps.
 """
 from __future__ import annotations
 
+import contextlib
 import math
 import os
+import warnings
 from dataclasses import dataclass, field
 from fractions import Fraction
 from pathlib import Path
@@ -15,6 +17,7 @@ from typing import Iterable, Sequence
 
 import numpy as np
 
+from syncstats._checks import check_fs
 from syncstats._errors import SyncstatsInputError
 
 __all__: list[str] = []
@@ -74,6 +77,31 @@ def _library_notes(caught, who: str) -> list[str]:
     return out
 
 
+@contextlib.contextmanager
+def _library_warnings(notes: list[str], who: str):
+    """Record the warnings a file library raises inside the block as ``notes``."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        yield
+    for note in _library_notes(caught, who):
+        if note not in notes:
+            notes.append(note)
+
+
+def _short(err: BaseException) -> str:
+    """A library error message on one line, at most 160 characters."""
+    msg = " ".join(str(err).split())
+    return (msg[:160] + "...") if len(msg) > 160 else (msg or type(err).__name__)
+
+
+def _is_number(s: str) -> bool:
+    try:
+        float(s)
+    except ValueError:
+        return False
+    return True
+
+
 def _rate_fraction(rate: float | Fraction) -> Fraction:
     """Exact (or 1e-6-close) fraction for a sampling rate in Hz."""
     if isinstance(rate, Fraction):
@@ -85,47 +113,88 @@ def _fmt_hz(rate: float | Fraction) -> str:
     return f"{float(rate):g} Hz"
 
 
-def _check_file(path: str | os.PathLike, what: str = "file") -> Path:
-    """Resolve ``path`` and check that it is an existing, non-empty regular file."""
+def _as_path(path) -> Path:
     try:
-        p = Path(os.fspath(path)).expanduser()
+        return Path(os.fspath(path)).expanduser()
     except TypeError as err:
         raise SyncstatsInputError(
-            f"The path argument {path!r} is not a file path; pass a str or pathlib.Path."
+            f"The input {path!r} is not a file path; give the path of a file as text."
         ) from err
+
+
+def _check_file(path: str | os.PathLike, what: str = "file") -> Path:
+    """Resolve ``path`` and check that it is an existing, non-empty, readable regular file."""
+    p = _as_path(path)
     if not p.exists():
         raise SyncstatsInputError(
             f"The {what} '{p}' does not exist; check the path and the working directory."
         )
     if not p.is_file():
         raise SyncstatsInputError(
-            f"The {what} '{p}' is not a regular file (is it a folder?); pass the path "
+            f"The {what} '{p}' is not a regular file (is it a folder?); give the path "
             "of the file itself."
         )
     if p.stat().st_size == 0:
         raise SyncstatsInputError(
             f"The {what} '{p}' is empty (0 bytes); check that it was written completely."
         )
+    try:
+        with open(p, "rb") as fh:
+            fh.read(1)
+    except OSError as err:
+        raise SyncstatsInputError(
+            f"The {what} '{p}' cannot be opened for reading ({err.strerror or _short(err)}); "
+            "check its permissions, or copy it to a readable place."
+        ) from err
     return p
 
 
+def _read_text(p: Path, what: str = "file") -> str:
+    """The whole file as text (UTF-8, optional byte-order mark); binary or blank is refused."""
+    try:
+        text = p.read_text(encoding="utf-8-sig")
+    except UnicodeDecodeError as err:
+        raise SyncstatsInputError(
+            f"The {what} '{p}' is not UTF-8 text (byte {err.start}); save it as a UTF-8 "
+            "text file or give a file in one of the binary formats."
+        ) from err
+    except OSError as err:
+        raise SyncstatsInputError(
+            f"The {what} '{p}' cannot be read ({err.strerror or _short(err)}); check its "
+            "permissions, or copy it to a readable place."
+        ) from err
+    if "\x00" in text:
+        raise SyncstatsInputError(
+            f"The {what} '{p}' holds binary data (a NUL byte at character "
+            f"{text.index(chr(0))}), not text; give a text table, or the file in its binary "
+            "format with the matching suffix."
+        )
+    if not text.strip():
+        raise SyncstatsInputError(
+            f"The {what} '{p}' contains only blank space; check that it was written completely."
+        )
+    return text
+
+
+def _first_content_line(text: str) -> str | None:
+    """First line that is neither blank nor a '#' comment (stripped), or None."""
+    for line in text.splitlines():
+        s = line.strip()
+        if s and not s.startswith("#"):
+            return s
+    return None
+
+
+def _is_plain_event_line(line: str | None) -> bool:
+    """A first content line holding one number and nothing else (a plain event list)."""
+    return line is not None and len(line.split()) == 1 and "," not in line and _is_number(line)
+
+
 def _check_fs(fs: float | None, param: str = "fs") -> float | None:
-    """Validate a sampling rate option: None or a finite number > 0."""
+    """A rate option: None, or a finite number of Hz > 0 (the shared check)."""
     if fs is None:
         return None
-    try:
-        value = float(fs)
-    except (TypeError, ValueError) as err:
-        raise SyncstatsInputError(
-            f"Parameter {param}={fs!r} is not a number; pass the sampling rate in Hz "
-            "as a positive number."
-        ) from err
-    if not math.isfinite(value) or value <= 0:
-        raise SyncstatsInputError(
-            f"Parameter {param}={fs!r} is not a sampling rate; pass a finite number of "
-            "Hz greater than 0."
-        )
-    return value
+    return check_fs(fs, where=param, hint="give the rate in Hz as a positive number")
 
 
 def _check_name_list(values: str | Sequence[str] | None, param: str) -> list[str] | None:
@@ -138,17 +207,17 @@ def _check_name_list(values: str | Sequence[str] | None, param: str) -> list[str
         names = [str(v) for v in values]
     except TypeError as err:
         raise SyncstatsInputError(
-            f"Parameter {param}={values!r} is not a name or a list of names; pass e.g. "
-            f"{param}=['ecg', 'resp']."
+            f"The {param} option {values!r} is not a name or a list of names; give "
+            "one signal name or several, e.g. ecg and resp."
         ) from err
     if not names:
         raise SyncstatsInputError(
-            f"Parameter {param} is an empty list; pass at least one name or leave it as None."
+            f"The {param} option is an empty list; give at least one name, or leave the option out."
         )
     dupes = sorted({n for n in names if names.count(n) > 1})
     if dupes:
         raise SyncstatsInputError(
-            f"Parameter {param} names {', '.join(map(repr, dupes))} more than once; list "
+            f"The {param} option names {', '.join(map(repr, dupes))} more than once; list "
             "each name once."
         )
     return names
@@ -163,8 +232,8 @@ def _select(available: Sequence[str], wanted: Sequence[str] | None, path: Path,
     if missing:
         raise SyncstatsInputError(
             f"File '{path}' has no {what} named {', '.join(map(repr, missing))}; the "
-            f"available {what}s are {', '.join(map(repr, available)) or '(none)'}, pass "
-            f"some of those to signals=."
+            f"available {what}s are {', '.join(map(repr, available)) or '(none)'}; choose "
+            "signals from those."
         )
     return list(wanted)
 

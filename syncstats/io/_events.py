@@ -7,11 +7,17 @@ from pathlib import Path
 
 import numpy as np
 
+from syncstats._checks import check_event_times
 from syncstats._errors import SyncstatsInputError
 
-from ._common import _check_file
+from ._common import _check_file, _first_content_line, _is_plain_event_line, _read_text
+from ._tabular import _read_delimited_frame, _read_parquet_frame
 
 __all__ = ["read_events"]
+
+#: Largest magnitude of an event time (s), about 31,700 years: beyond it the intervals
+#: between events can no longer be resolved (and their differences may overflow).
+_MAX_EVENT_TIME_S = 1e12
 
 
 def read_events(path: str | os.PathLike, *, column: str | None = None) -> np.ndarray:
@@ -46,19 +52,25 @@ def read_events(path: str | os.PathLike, *, column: str | None = None) -> np.nda
     >>> read_events(p).tolist()
     [0.81, 1.62, 2.4]
     """
+    return _read_event_file(path, column)[0]
+
+
+def _read_event_file(path, column: str | None = None) -> tuple[np.ndarray, list[str]]:
+    """Checked event times of a file, and the notes of the library that read it."""
     p = _check_file(path, "event file")
-    times, lines = _read_event_values(p, column)
-    return _validate_event_times(times, f"Event file '{p}'" + (f", column {column!r}" if column else ""), lines)
+    times, lines, notes = _read_event_values(p, column)
+    where = "event file" if column is None else f"column {column!r} of event file"
+    return _validate_event_times(times, where, str(p), lines), [
+        f"event file '{p.name}': {n}" for n in notes]
 
 
-def _read_event_values(p: Path, column: str | None) -> tuple[np.ndarray, np.ndarray | None]:
-    """Return raw values and, where known, the file line number of each value."""
+def _read_event_values(p: Path, column: str | None
+                       ) -> tuple[np.ndarray, np.ndarray | None, list[str]]:
+    """Raw values, the file line number of each value where known, and reader notes."""
     suffix = p.suffix.lower()
     if suffix == ".parquet":
-        from ._tabular import _read_parquet_frame
-
         frame = _read_parquet_frame(p)
-        return _column_values(frame, p, column, line_offset=None)
+        return (*_column_values(frame, p, column, line_offset=None), frame.attrs["notes"])
     text = _read_text(p, "event file")
     first = _first_content_line(text)
     if first is None:
@@ -66,43 +78,10 @@ def _read_event_values(p: Path, column: str | None) -> tuple[np.ndarray, np.ndar
             f"Event file '{p}' has no event times (only blank or '#' lines); write one "
             "time in seconds per line."
         )
-    if column is None and _is_number(first.strip()) and len(first.split()) == 1 and "," not in first:
-        return _plain_list(text, p)
-    from ._tabular import _read_delimited_frame
-
+    if column is None and _is_plain_event_line(first):
+        return (*_plain_list(text, p), [])
     frame = _read_delimited_frame(p, text)
-    return _column_values(frame, p, column, line_offset=2)
-
-
-def _read_text(p: Path, what: str) -> str:
-    try:
-        text = p.read_text(encoding="utf-8-sig")
-    except UnicodeDecodeError as err:
-        raise SyncstatsInputError(
-            f"The {what} '{p}' is not UTF-8 text (byte {err.start}); save it as a UTF-8 "
-            "text file or pass a file in one of the binary formats."
-        ) from err
-    if not text.strip():
-        raise SyncstatsInputError(
-            f"The {what} '{p}' contains only blank space; check that it was written completely."
-        )
-    return text
-
-
-def _first_content_line(text: str) -> str | None:
-    for line in text.splitlines():
-        s = line.strip()
-        if s and not s.startswith("#"):
-            return s
-    return None
-
-
-def _is_number(s: str) -> bool:
-    try:
-        float(s)
-    except ValueError:
-        return False
-    return True
+    return (*_column_values(frame, p, column, line_offset=2), frame.attrs["notes"])
 
 
 def _plain_list(text: str, p: Path) -> tuple[np.ndarray, np.ndarray]:
@@ -132,8 +111,8 @@ def _column_values(frame, p: Path, column: str | None,
         if len(cols) != 1:
             raise SyncstatsInputError(
                 f"Event file '{p}' has {len(cols)} columns ({', '.join(map(repr, cols))}); "
-                "say which one holds the times, e.g. events={'beats': path} naming the "
-                "column, or read_events(path, column=NAME)."
+                "name the column that holds the times (an event name equal to a column name "
+                "picks that column)."
             )
         column = cols[0]
     if column not in cols:
@@ -159,79 +138,81 @@ def _column_values(frame, p: Path, column: str | None,
     return values, lines
 
 
-def _validate_event_times(times, where: str, lines: np.ndarray | None = None) -> np.ndarray:
-    """Check event times: 1-D, finite, strictly increasing; return a float64 copy."""
-    try:
-        t = np.array(times, dtype=float)
-    except (TypeError, ValueError) as err:
+def _validate_event_times(times, where: str, name: str,
+                         lines: np.ndarray | None = None) -> np.ndarray:
+    """The shared event-time check (:func:`syncstats._checks.check_event_times`), with
+    the file line of the first bad time when the times come from a text file."""
+    with np.errstate(over="ignore", invalid="ignore"):  # huge times: refused below
+        if lines is not None:
+            _locate_bad_time(np.asarray(times, dtype=float), f"{where} '{name}'", lines)
+        t = check_event_times(times, name, where=where)
+    far = np.flatnonzero(np.abs(t) > _MAX_EVENT_TIME_S)
+    if far.size:
+        i = int(far[0])
+        at = f"line {int(lines[i])}" if lines is not None else f"position {i}"
         raise SyncstatsInputError(
-            f"{where}: the event times are not numbers; pass a 1-D sequence of seconds."
-        ) from err
-    if t.ndim != 1:
-        raise SyncstatsInputError(
-            f"{where}: event times must be a 1-D sequence of seconds, got shape {t.shape}; "
-            "pass one flat list per event name."
-        )
-    if t.size == 0:
-        raise SyncstatsInputError(
-            f"{where}: there are no event times; give at least one time in seconds."
-        )
-
-    def loc(i: int) -> str:
-        return f"line {int(lines[i])}" if lines is not None else f"position {i}"
-
-    nonfinite = np.flatnonzero(~np.isfinite(t))
-    if nonfinite.size:
-        i = int(nonfinite[0])
-        raise SyncstatsInputError(
-            f"{where}, {loc(i)}: event time {t[i]} is not finite; remove it or give a "
-            "time in seconds."
-        )
-    d = np.diff(t)
-    dup = np.flatnonzero(d == 0)
-    back = np.flatnonzero(d < 0)
-    if back.size and (not dup.size or back[0] < dup[0]):
-        i = int(back[0]) + 1
-        raise SyncstatsInputError(
-            f"{where}, {loc(i)}: event time {t[i]:g} s is earlier than the one before it "
-            f"({t[i - 1]:g} s), so the times are not sorted; sort them in increasing order."
-        )
-    if dup.size:
-        i = int(dup[0]) + 1
-        raise SyncstatsInputError(
-            f"{where}, {loc(i)}: event time {t[i]:g} s occurs twice; remove the duplicate "
-            "(each event time must be unique)."
+            f"{where} '{name}', {at}: the event time {t[i]:.6g} s lies beyond "
+            f"{_MAX_EVENT_TIME_S:.0e} s (about 31,700 years); give event times in seconds "
+            "from the start of the recording."
         )
     return t
 
 
-def _load_event_option(events, origin_s: float = 0.0) -> dict[str, np.ndarray]:
+def _locate_bad_time(t: np.ndarray, where: str, lines: np.ndarray) -> None:
+    """Name the file line of the first non-finite, out-of-order or repeated time."""
+    nonfinite = np.flatnonzero(~np.isfinite(t))
+    if nonfinite.size:
+        i = int(nonfinite[0])
+        raise SyncstatsInputError(
+            f"{where}, line {int(lines[i])}: event time {t[i]} is not finite; remove it or "
+            "give a time in seconds."
+        )
+    d = np.diff(t)
+    bad = np.flatnonzero(d <= 0)
+    if bad.size:
+        i = int(bad[0]) + 1
+        if d[i - 1] == 0:
+            raise SyncstatsInputError(
+                f"{where}, line {int(lines[i])}: event time {t[i]:g} s occurs twice; remove "
+                "the duplicate (each event time must be unique)."
+            )
+        raise SyncstatsInputError(
+            f"{where}, line {int(lines[i])}: event time {t[i]:g} s is earlier than the one "
+            f"before it ({t[i - 1]:g} s), so the times are not sorted; sort them in "
+            "increasing order."
+        )
+
+
+def _load_event_option(events, origin_s: float, notes: list[str]) -> dict[str, np.ndarray]:
     """Read the ``events=`` option: a path, or a mapping name -> path or array.
 
     Times from files are taken in the clock of the signal file and shifted by
     ``origin_s`` (the time of its first sample); arrays are taken as given (seconds
-    from the first sample).
+    from the first sample). Reader notes are appended to ``notes``.
     """
     if events is None:
         return {}
     out: dict[str, np.ndarray] = {}
     if isinstance(events, (str, os.PathLike)):
         p = _check_file(events, "event file")
-        out[p.stem] = read_events(p) - origin_s
+        times, file_notes = _read_event_file(p)
+        out[p.stem] = times - origin_s
+        notes += file_notes
         return out
     if not isinstance(events, Mapping):
         raise SyncstatsInputError(
-            f"Parameter events={events!r} is neither a path nor a mapping; pass the path "
-            "of an event list or a dict such as {'rpeaks': 'beats.txt'}."
+            f"The events option {events!r} is neither a file path nor a list of named "
+            "event sources; give an event file, or name each event list with its file or times."
         )
     for key, value in events.items():
         name = str(key)
         if isinstance(value, (str, os.PathLike)):
             p = _check_file(value, "event file")
-            column = _pick_event_column(p, name)
-            out[name] = read_events(p, column=column) - origin_s
+            times, file_notes = _read_event_file(p, _pick_event_column(p, name))
+            out[name] = times - origin_s
+            notes += file_notes
         else:
-            out[name] = _validate_event_times(value, f"Parameter events[{name!r}]")
+            out[name] = _validate_event_times(value, "event list", name)
     return out
 
 
@@ -240,16 +221,12 @@ def _pick_event_column(p: Path, name: str) -> str | None:
     if p.suffix.lower() not in {".csv", ".tsv", ".txt", ".parquet"}:
         return None
     if p.suffix.lower() == ".parquet":
-        from ._tabular import _read_parquet_frame
-
         cols = [str(c) for c in _read_parquet_frame(p).columns]
     else:
         text = _read_text(p, "event file")
         first = _first_content_line(text)
-        if first is None or (_is_number(first.strip()) and len(first.split()) == 1):
+        if first is None or _is_plain_event_line(first):
             return None
-        from ._tabular import _read_delimited_frame
-
         cols = [str(c) for c in _read_delimited_frame(p, text, nrows=1).columns]
     if name in cols:
         return name

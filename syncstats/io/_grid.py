@@ -14,6 +14,7 @@ from fractions import Fraction
 
 import numpy as np
 
+from syncstats._checks import check_float
 from syncstats._errors import SyncstatsInputError
 
 from ._common import _fmt_hz, _fraction_gcd, _rate_fraction, _Source
@@ -23,27 +24,18 @@ __all__: list[str] = []
 
 GAP_MODES = ("error", "split")
 _MAX_RESAMPLE_FACTOR = 10_000
+#: Largest accepted sample magnitude: squares and sums over 1e9 samples (power spectra,
+#: variances) stay far below the float64 maximum of about 1.8e308.
+_MAX_MAGNITUDE = 1e100
 
 
 def _check_gap_options(gaps: str, min_segment_s: float) -> float:
     if gaps not in GAP_MODES:
         raise SyncstatsInputError(
-            f"Parameter gaps={gaps!r} is not supported; pass one of "
+            f"The gaps option {gaps!r} is not supported; choose one of "
             f"{', '.join(map(repr, GAP_MODES))}."
         )
-    try:
-        value = float(min_segment_s)
-    except (TypeError, ValueError) as err:
-        raise SyncstatsInputError(
-            f"Parameter min_segment_s={min_segment_s!r} is not a number; pass a duration "
-            "in seconds (>= 0)."
-        ) from err
-    if not math.isfinite(value) or value < 0:
-        raise SyncstatsInputError(
-            f"Parameter min_segment_s={min_segment_s!r} is not a duration; pass a finite "
-            "number of seconds >= 0."
-        )
-    return value
+    return check_float(min_segment_s, "min_segment_s (minimum segment length, s)", low=0)
 
 
 def _resample_factors(src: _Source, target: Fraction) -> dict[str, tuple[int, int]]:
@@ -55,7 +47,7 @@ def _resample_factors(src: _Source, target: Fraction) -> dict[str, tuple[int, in
             raise SyncstatsInputError(
                 f"File '{src.path}', signal {name!r}: resampling {_fmt_hz(rate)} to "
                 f"{_fmt_hz(target)} needs the ratio {up}/{down}, too fine for polyphase "
-                "resampling; pass a resample_to= rate with a simpler ratio to "
+                "resampling; choose a common rate with a simpler ratio to "
                 f"{_fmt_hz(rate)} (e.g. a divisor of it)."
             )
         factors[name] = (up, down)
@@ -137,9 +129,8 @@ def _gap_error(src: _Source, g: Fraction, blocks, segs) -> SyncstatsInputError:
     candidates.sort(key=lambda c: c[0])
     return SyncstatsInputError(
         f"{src.kind} file '{src.path}', {candidates[0][1]}, the first gap of a file that "
-        f"falls into {len(segs)} gap-free piece(s); syncstats never interpolates, so pass "
-        "gaps='split' to read_segments() to get one Recording per gap-free piece, or fill "
-        "or cut the gap yourself."
+        f"falls into {len(segs)} gap-free piece(s); syncstats never interpolates, so split "
+        "the record at gaps to analyse each gap-free piece, or fill or cut the gap yourself."
     )
 
 
@@ -158,8 +149,8 @@ def _merge_events(src: _Source, extra: dict[str, np.ndarray]) -> dict[str, np.nd
     for name, times in extra.items():
         if name in events:
             raise SyncstatsInputError(
-                f"Event name {name!r} is given by events= and also comes from file "
-                f"'{src.path}'; rename it, e.g. events={{'{name}_2': ...}}."
+                f"Event name {name!r} is given as an event list and also comes from file "
+                f"'{src.path}'; give the event list another name, e.g. '{name}_2'."
             )
         events[name] = times
     return events
@@ -179,8 +170,8 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
         listing = ", ".join(f"{n!r} {_fmt_hz(r)}" for n, r in src.rates.items())
         raise SyncstatsInputError(
             f"{src.kind} file '{src.path}' has signals at different sampling rates "
-            f"({listing}); pass resample_to=HZ to resample them onto one grid, or select "
-            "signals that share one rate with signals=[...]."
+            f"({listing}); give a common rate to resample them to, or choose signals "
+            "that share one rate."
         )
     target = None
     factors: dict[str, tuple[int, int]] = {}
@@ -193,14 +184,22 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
         empty = [n for n, x in src.signals.items() if len(x) == 0]
         raise SyncstatsInputError(
             f"{src.kind} file '{src.path}': signal(s) {', '.join(map(repr, empty))} have "
-            "no samples; leave them out with signals=[...]."
+            "no samples; leave them out of the chosen signals."
         )
     hollow = [n for n, x in src.signals.items() if not np.isfinite(x).any()]
     if hollow:
         raise SyncstatsInputError(
             f"{src.kind} file '{src.path}': signal(s) {', '.join(map(repr, hollow))} have no "
-            "valid sample (every value is missing); leave them out with signals=[...]."
+            "valid sample (every value is missing); leave them out of the chosen signals."
         )
+    for n, x in src.signals.items():
+        big = float(np.max(np.abs(x[np.isfinite(x)])))
+        if big > _MAX_MAGNITUDE:
+            raise SyncstatsInputError(
+                f"{src.kind} file '{src.path}', signal {n!r}: values reach {big:.3g}, too "
+                f"large to process without overflow (the limit is {_MAX_MAGNITUDE:.0e} in "
+                "magnitude); rescale the signal, e.g. write it in another unit."
+            )
     g, per_cell, n_cells, good = _cell_layout(src)
     segs, blocks = _segments(src, g, n_cells, good)
     whole = len(segs) == 1 and segs[0][:2] == (0, n_cells)
@@ -230,18 +229,18 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
                 f"{s[2]:.6g}-{s[2] + float(Fraction(s[1] - s[0]) / g):.6g} s" for s in dropped[:10]
             ) + ("; ..." if len(dropped) > 10 else "")
             notes.append(
-                f"dropped {len(dropped)} gap-free piece(s) shorter than "
-                f"min_segment_s={min_segment_s:g} s: {spans}"
+                f"dropped {len(dropped)} gap-free piece(s) shorter than the minimum segment "
+                f"length of {min_segment_s:g} s: {spans}"
             )
         if not kept:
             longest = max(float(Fraction(s[1] - s[0]) / g) for s in segs) if segs else 0.0
             raise SyncstatsInputError(
-                f"{src.kind} file '{src.path}' has no gap-free piece of at least "
-                f"min_segment_s={min_segment_s:g} s (the longest is {longest:.6g} s); "
-                "lower min_segment_s or repair the gaps."
+                f"{src.kind} file '{src.path}' has no gap-free piece as long as the minimum "
+                f"segment length of {min_segment_s:g} s (the longest is {longest:.6g} s); "
+                "lower the minimum segment length or repair the gaps."
             )
-    out = []
-    for i, (a, b, onset) in enumerate(kept, start=1):
+    pieces = []
+    for a, b, onset in kept:
         sigs = {}
         for n, x in src.signals.items():
             m = per_cell[n]
@@ -253,25 +252,42 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
                 piece = resample_poly(piece, up, down, padtype="mean")
             sigs[n] = np.array(piece, dtype=float)
         n_out = min(len(v) for v in sigs.values())
-        sigs = {n: v[:n_out] for n, v in sigs.items()}
+        pieces.append(({n: v[:n_out] for n, v in sigs.items()}, onset, n_out / fs_out))
+    notes += _outside_notes(events, [(onset, dur) for _, onset, dur in pieces])
+    out = []
+    for i, (sigs, onset, dur) in enumerate(pieces, start=1):
         seg_notes = list(notes)
         if whole:
-            seg_name, seg_events, seg_start = rec_name, events, src.start_time
+            seg_name, seg_start = rec_name, src.start_time
         else:
-            dur = n_out / fs_out
             seg_name = f"{rec_name}#{i}"
             seg_notes.append(
                 f"segment {i} of {len(kept)}: {onset:.6g}-{onset + dur:.6g} s of the file, "
                 "a gap-free piece (gaps are never interpolated); times count from its start"
             )
-            seg_events = {}
-            for en, et in events.items():
-                inside = (et >= onset) & (et < onset + dur)
-                seg_events[en] = et[inside] - onset
             seg_start = _shift_iso(src.start_time, onset)
+        seg_events = {en: et[(et >= onset) & (et < onset + dur)] - onset
+                      for en, et in events.items()}
         out.append(Recording(
             name=seg_name, signals=sigs, fs=fs_out, units=dict(src.units),
             start_time=seg_start, events=seg_events, source=str(src.path),
             notes=tuple(seg_notes),
         ))
     return out
+
+
+def _outside_notes(events: dict[str, np.ndarray], spans: list[tuple[float, float]]) -> list[str]:
+    """One note per event list with times outside every analysed span [onset, onset + dur)."""
+    notes = []
+    for name, times in events.items():
+        inside = np.zeros(len(times), dtype=bool)
+        for onset, dur in spans:
+            inside |= (times >= onset) & (times < onset + dur)
+        lost = int((~inside).sum())
+        if lost:
+            notes.append(
+                f"events {name!r}: {lost} of {len(times)} event times lie outside the analysed "
+                "signal span (before its start, after its end, or in a gap or dropped piece) "
+                "and were dropped"
+            )
+    return notes

@@ -5,17 +5,21 @@ import os
 from pathlib import Path
 from typing import Sequence
 
+from syncstats._checks import check_bool
 from syncstats._errors import SyncstatsInputError
 
-from ._common import _check_file, _check_fs, _check_name_list, _Source
-from ._edf import _load_edf
-from ._events import (
+from ._common import (
+    _as_path,
+    _check_file,
+    _check_fs,
+    _check_name_list,
     _first_content_line,
-    _is_number,
-    _load_event_option,
+    _is_plain_event_line,
     _read_text,
-    read_events,
+    _Source,
 )
+from ._edf import _load_edf
+from ._events import _load_event_option, _read_event_file
 from ._grid import _check_gap_options, _finish
 from ._recording import Recording
 from ._tabular import _load_delimited, _load_parquet
@@ -47,17 +51,12 @@ _FORMATS = ("table", "parquet", "edf", "wfdb")
 
 def _resolve(path, fmt: str | None) -> tuple[Path, str]:
     """Existing path and its format (a WFDB record may be given without extension)."""
-    try:
-        p = Path(os.fspath(path)).expanduser()
-    except TypeError as err:
-        raise SyncstatsInputError(
-            f"The path argument {path!r} is not a file path; pass a str or pathlib.Path."
-        ) from err
+    p = _as_path(path)
     if fmt is not None:
         if fmt not in _FORMATS:
             raise SyncstatsInputError(
-                f"Parameter format={fmt!r} is not supported; pass one of "
-                f"{', '.join(map(repr, _FORMATS))} or leave it None to go by the suffix."
+                f"The format option {fmt!r} is not supported; choose one of "
+                f"{', '.join(map(repr, _FORMATS))}, or leave it out to go by the suffix."
             )
         if fmt == "wfdb":
             return p, fmt
@@ -69,8 +68,8 @@ def _resolve(path, fmt: str | None) -> tuple[Path, str]:
             return p, "wfdb"
         raise SyncstatsInputError(
             f"File '{p}' has the suffix {p.suffix or '(none)'!r}, which is not a format "
-            f"syncstats reads; accepted suffixes are {', '.join(ACCEPTED_SUFFIXES)} (or "
-            "pass format=)."
+            f"syncstats reads; accepted suffixes are {', '.join(ACCEPTED_SUFFIXES)}; rename "
+            "the file or name its format."
         )
     kind = ACCEPTED_SUFFIXES[suffix]
     if kind == "wfdb":
@@ -83,47 +82,48 @@ def _resolve(path, fmt: str | None) -> tuple[Path, str]:
 def _reject(option: str, value, fmt: str, p: Path, hint: str) -> None:
     if value is not None:
         raise SyncstatsInputError(
-            f"Parameter {option}= does not apply to {fmt} file '{p}'; {hint}"
+            f"The {option} option does not apply to {fmt} file '{p}'; {hint}"
         )
 
 
-def _load(p: Path, fmt: str, *, fs, signals, time_column, annotation) -> _Source:
+def _load(p: Path, fmt: str, *, fs, signals, time_column, annotation,
+          allow_truncated: bool = False) -> _Source:
     fs = _check_fs(fs, "fs")
     signals = _check_name_list(signals, "signals")
     annotation = _check_name_list(annotation, "annotation")
     if time_column is not None and not isinstance(time_column, str):
         raise SyncstatsInputError(
-            f"Parameter time_column={time_column!r} is not a column name; pass the name "
-            "of the column with the sample times as a str."
+            f"The time column option {time_column!r} is not a column name; give the "
+            "name of the column with the sample times."
         )
     if fmt in ("table", "parquet"):
         _reject("annotation", annotation, "a table", p,
-                "pass event lists with events= instead.")
+                "give event lists as events instead.")
         if fmt == "parquet":
             return _load_parquet(p, fs=fs, time_column=time_column, signals=signals)
         if p.suffix.lower() == ".txt" and _is_event_list(p):
             if signals is not None or time_column is not None:
                 raise SyncstatsInputError(
                     f"File '{p}' is a list of event times (one number per line), so it has "
-                    "no signals or time column; leave signals= and time_column= out."
+                    "no signals or time column; leave out the signal and time-column choices."
                 )
-            times = read_events(p)
+            times, notes = _read_event_file(p)
             return _Source(path=p, name=p.stem, kind="event list", signals={}, rates={},
                            events={p.stem: times},
-                           notes=[f"read '{p.name}' as a list of event times (s)"])
+                           notes=[f"read '{p.name}' as a list of event times (s)", *notes])
         return _load_delimited(p, fs=fs, time_column=time_column, signals=signals)
-    hint = "the header gives the sampling rates (use resample_to=HZ to change them)."
-    _reject("fs", fs, fmt.upper(), p, hint)
-    _reject("time_column", time_column, fmt.upper(), p, "its header defines the time axis.")
+    hint = "the header gives the sampling rates (give a common rate to resample to instead)."
+    _reject("sampling rate", fs, fmt.upper(), p, hint)
+    _reject("time column", time_column, fmt.upper(), p, "its header defines the time axis.")
     if fmt == "edf":
-        return _load_edf(p, signals=signals, annotation=annotation)
-    return _load_wfdb(p, signals=signals, annotation=annotation)
+        return _load_edf(p, signals=signals, annotation=annotation,
+                         allow_truncated=allow_truncated)
+    return _load_wfdb(p, signals=signals, annotation=annotation,
+                      allow_truncated=allow_truncated)
 
 
 def _is_event_list(p: Path) -> bool:
-    first = _first_content_line(_read_text(p, "file"))
-    return first is not None and len(first.split()) == 1 and "," not in first \
-        and _is_number(first)
+    return _is_plain_event_line(_first_content_line(_read_text(p, "file")))
 
 
 def read_segments(
@@ -139,6 +139,7 @@ def read_segments(
     gaps: str = "split",
     min_segment_s: float = 10.0,
     format: str | None = None,
+    allow_truncated: bool = False,
 ) -> list[Recording]:
     """Read a recording file and return one Recording per gap-free segment.
 
@@ -177,6 +178,10 @@ def read_segments(
         Gap-free pieces shorter than this (seconds) are dropped, with a note.
     format : {"table", "parquet", "edf", "wfdb"}, optional
         Override the suffix.
+    allow_truncated : bool
+        EDF/BDF/WFDB: a file that holds fewer data than its header declares (cut off
+        while copying or recording) is refused by default; when True, the complete
+        records are analysed and a note in ``Recording.notes`` says what was cut.
 
     Returns
     -------
@@ -200,10 +205,11 @@ def read_segments(
     """
     min_seg = _check_gap_options(gaps, min_segment_s)
     resample = _check_fs(resample_to, "resample_to")
+    allow_truncated = check_bool(allow_truncated, "allow_truncated")
     p, fmt = _resolve(path, format)
     src = _load(p, fmt, fs=fs, signals=signals, time_column=time_column,
-                annotation=annotation)
-    extra = _load_event_option(events, src.time_origin_s)
+                annotation=annotation, allow_truncated=allow_truncated)
+    extra = _load_event_option(events, src.time_origin_s, src.notes)
     return _finish(src, name=name, resample_to=resample, gaps=gaps,
                    min_segment_s=min_seg, extra_events=extra)
 
@@ -219,10 +225,12 @@ def read_recording(
     name: str | None = None,
     resample_to: float | None = None,
     format: str | None = None,
+    allow_truncated: bool = False,
 ) -> Recording:
     """Read a recording file (any accepted format) into one gap-free Recording.
 
-    Takes the same options as :func:`read_segments` (without ``gaps`` and
+    Takes the same options as :func:`read_segments` (including ``allow_truncated``;
+    without ``gaps`` and
     ``min_segment_s``) and raises :class:`~syncstats._errors.SyncstatsInputError` at the
     first gap, naming the file, the signal and the time in seconds; use
     ``read_segments(path, gaps="split")`` to analyse gap-free pieces instead.
@@ -245,7 +253,8 @@ def read_recording(
     """
     return read_segments(path, fs=fs, signals=signals, events=events,
                          time_column=time_column, annotation=annotation, name=name,
-                         resample_to=resample_to, gaps="error", format=format)[0]
+                         resample_to=resample_to, gaps="error", format=format,
+                         allow_truncated=allow_truncated)[0]
 
 
 def read_csv(path: str | os.PathLike, *, fs: float | None = None,
@@ -278,8 +287,9 @@ def read_parquet(path: str | os.PathLike, *, fs: float | None = None,
 
 def read_edf(path: str | os.PathLike, *, signals: str | Sequence[str] | None = None,
              annotation: str | Sequence[str] | None = None, events=None,
-             name: str | None = None, resample_to: float | None = None) -> Recording:
-    """Read an EDF, EDF+ or BDF/BDF+ file with ``edfio`` (a ``.bdf`` suffix means BDF).
+             name: str | None = None, resample_to: float | None = None,
+             allow_truncated: bool = False) -> Recording:
+    """Read an EDF, EDF+ or BDF/BDF+ file with ``edfio`` (EDF or BDF as its header says).
 
     Physical values in the header's units; ``annotation`` picks EDF+ annotation texts
     whose onsets become events. Signals at different rates need ``resample_to``. See
@@ -287,12 +297,13 @@ def read_edf(path: str | os.PathLike, *, signals: str | Sequence[str] | None = N
     """
     return read_segments(path, signals=signals, annotation=annotation, events=events,
                          name=name, resample_to=resample_to, gaps="error",
-                         format="edf")[0]
+                         format="edf", allow_truncated=allow_truncated)[0]
 
 
 def read_wfdb(path: str | os.PathLike, *, signals: str | Sequence[str] | None = None,
               annotation: str | Sequence[str] | None = None, events=None,
-              name: str | None = None, resample_to: float | None = None) -> Recording:
+              name: str | None = None, resample_to: float | None = None,
+              allow_truncated: bool = False) -> Recording:
     """Read a WFDB record (``.hea`` + signal files, path with or without extension).
 
     ``annotation`` gives annotation file extension(s) (e.g. ``"atr"``) whose beats
@@ -301,5 +312,5 @@ def read_wfdb(path: str | os.PathLike, *, signals: str | Sequence[str] | None = 
     """
     return read_segments(path, signals=signals, annotation=annotation, events=events,
                          name=name, resample_to=resample_to, gaps="error",
-                         format="wfdb")[0]
+                         format="wfdb", allow_truncated=allow_truncated)[0]
 

@@ -20,7 +20,17 @@ import pandas as pd
 
 from syncstats._errors import SyncstatsInputError
 
-from ._common import _Block, _rate_fraction, _select, _Source
+from ._common import (
+    _Block,
+    _is_number,
+    _library_notes,
+    _library_warnings,
+    _rate_fraction,
+    _read_text,
+    _select,
+    _short,
+    _Source,
+)
 
 __all__: list[str] = []
 
@@ -34,6 +44,12 @@ TIME_COLUMN_NAMES = (
 TIME_COLUMN_NAMES_MS = ("time_ms", "ms", "time (ms)", "time[ms]", "time [ms]", "t_ms")
 
 _DELIMITERS = ("\t", ",", ";", "|")
+#: Longest header row accepted (characters): a header names columns, and a longer first
+#: row is a sign of a wrong file or missing line breaks.
+_MAX_HEADER_CHARS = 1_000_000
+#: Largest magnitude of a time value (s), about 31,700 years: beyond it the steps
+#: between samples can no longer be resolved in float64.
+_MAX_TIME_S = 1e12
 _REL_JITTER = 0.01  # sampling interval may vary by 1 % (plus time rounding)
 _GAP_FACTOR = 1.5   # a step longer than 1.5 intervals means missing samples
 
@@ -49,7 +65,7 @@ def _sniff_delimiter(p: Path, lines: list[str]) -> str | None:
         return "\t"
     sample = lines[:20]
     for d in _DELIMITERS:
-        counts = {len(next(csv.reader([ln], delimiter=d))) for ln in sample}
+        counts = {len(_fields(p, ln, d)) for ln in sample}
         if len(counts) == 1 and counts.pop() > 1:
             return d
     ws = {len(ln.split()) for ln in sample}
@@ -58,10 +74,23 @@ def _sniff_delimiter(p: Path, lines: list[str]) -> str | None:
     return ","
 
 
-def _split_header(line: str, delimiter: str | None) -> list[str]:
+def _fields(p: Path, line: str, delimiter: str) -> list[str]:
+    """One line split by the csv module; its errors (a cell over its size limit) become
+    a sentence."""
+    try:
+        return next(csv.reader([line], delimiter=delimiter))
+    except csv.Error as err:
+        raise SyncstatsInputError(
+            f"File '{p}' has a line the table reader cannot split ({_short(err)}), near "
+            f"{line[:40]!r}; no sample value is that long, so check that the file is a "
+            "table with one row per line."
+        ) from err
+
+
+def _split_header(line: str, delimiter: str | None, p: Path) -> list[str]:
     if delimiter is None:
         return line.split()
-    return [c.strip() for c in next(csv.reader([line], delimiter=delimiter))]
+    return [c.strip() for c in _fields(p, line, delimiter)]
 
 
 def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None = None
@@ -72,8 +101,6 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
     ``first_data_line`` (file line number of the first data row).
     """
     if text is None:
-        from ._events import _read_text
-
         text = _read_text(p, "file")
     skip = 0
     lines: list[str] = []
@@ -91,9 +118,15 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
             f"File '{p}' has no header row and no data (only blank or '#' lines); write a "
             "header row naming the columns, then one row per sample."
         )
+    if len(lines[0]) > _MAX_HEADER_CHARS:
+        raise SyncstatsInputError(
+            f"File '{p}' has a first row of {len(lines[0]):,} characters, longer than the "
+            f"{_MAX_HEADER_CHARS:,} accepted for a header row; check that it is a table "
+            "with a header row naming the columns and one row per line."
+        )
     delimiter = _sniff_delimiter(p, lines)
-    header = _split_header(lines[0], delimiter)
-    if all(_is_float(h) for h in header):
+    header = _split_header(lines[0], delimiter, p)
+    if all(_is_number(h) for h in header):
         raise SyncstatsInputError(
             f"File '{p}' has no header row (its first row {lines[0][:60]!r} is all "
             "numbers); add a first row that names the columns, e.g. 'time_s,ecg,resp'."
@@ -104,9 +137,10 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
             f"File '{p}' names column(s) {', '.join(map(repr, dupes))} more than once in "
             "its header; give every column a unique name."
         )
+    notes: list[str] = []
     try:
         with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always", pd.errors.ParserWarning)
+            warnings.simplefilter("always")
             frame = pd.read_csv(
                 io.StringIO(text, newline=None),
                 skiprows=skip,
@@ -122,9 +156,15 @@ def _read_delimited_frame(p: Path, text: str | None = None, *, nrows: int | None
         ) from err
     if any(issubclass(w.category, pd.errors.ParserWarning) for w in caught):
         _check_extra_fields(p, text.splitlines(), skip, delimiter, len(header))
+        notes.append("some rows have more fields than the header; the extra fields are "
+                     "empty and were ignored")
+    notes += _library_notes([w for w in caught
+                             if not issubclass(w.category, pd.errors.ParserWarning)],
+                            "the table reader (pandas)")
     frame.columns = [str(h) for h in header] if len(header) == frame.shape[1] else [
         str(c).strip() for c in frame.columns]
     frame.attrs["first_data_line"] = skip + 2
+    frame.attrs["notes"] = notes
     return frame
 
 
@@ -134,7 +174,7 @@ def _check_extra_fields(p: Path, lines: list[str], skip: int, delimiter: str | N
     for i in range(skip + 1, len(lines)):
         if not lines[i].strip():
             continue
-        fields = _split_header(lines[i], delimiter)
+        fields = _split_header(lines[i], delimiter, p)
         if len(fields) > width and any(f.strip() for f in fields[width:]):
             raise SyncstatsInputError(
                 f"File '{p}', line {i + 1} has {len(fields)} fields but the header names "
@@ -144,32 +184,22 @@ def _check_extra_fields(p: Path, lines: list[str], skip: int, delimiter: str | N
 
 def _read_parquet_frame(p: Path) -> pd.DataFrame:
     """Read a Parquet file with pandas/pyarrow; a named or date-time index becomes a column."""
+    notes: list[str] = []
     try:
-        frame = pd.read_parquet(p)
+        with _library_warnings(notes, "the Parquet reader (pandas/pyarrow)"):
+            frame = pd.read_parquet(p)
     except Exception as err:  # pyarrow raises several unrelated types
         raise SyncstatsInputError(
             f"File '{p}' could not be read as Parquet ({_short(err)}); check that it is a "
-            "complete Parquet file (pandas.DataFrame.to_parquet writes one)."
+            "complete Parquet file."
         ) from err
     if not isinstance(frame.index, pd.RangeIndex):
         if frame.index.name is not None or isinstance(frame.index, pd.DatetimeIndex):
             frame = frame.reset_index()
     frame.columns = [str(c) for c in frame.columns]
     frame.attrs["first_data_line"] = None
+    frame.attrs["notes"] = notes
     return frame
-
-
-def _is_float(s: str) -> bool:
-    try:
-        float(s)
-    except ValueError:
-        return False
-    return True
-
-
-def _short(err: BaseException) -> str:
-    msg = " ".join(str(err).split())
-    return (msg[:160] + "...") if len(msg) > 160 else (msg or type(err).__name__)
 
 
 # --------------------------------------------------------------------------- frame -> source
@@ -209,7 +239,7 @@ def _find_time_column(cols: list[str], time_column: str | None, p: Path) -> str 
     if time_column is not None:
         if time_column not in cols:
             raise SyncstatsInputError(
-                f"File '{p}' has no column {time_column!r} for time_column=; its columns "
+                f"File '{p}' has no column {time_column!r} to use as the time column; its columns "
                 f"are {', '.join(map(repr, cols))}, pick one of those."
             )
         return time_column
@@ -218,7 +248,7 @@ def _find_time_column(cols: list[str], time_column: str | None, p: Path) -> str 
     if len(found) > 1:
         raise SyncstatsInputError(
             f"File '{p}' has several time-like columns ({', '.join(map(repr, found))}); "
-            "say which one holds the sample times with time_column=NAME."
+            "name the one that holds the sample times."
         )
     return found[0] if found else None
 
@@ -257,8 +287,8 @@ def _time_values(frame: pd.DataFrame, col: str, p: Path) -> tuple[np.ndarray, st
         except (ValueError, TypeError) as err:
             raise SyncstatsInputError(
                 f"File '{p}': time column {col!r} holds neither numbers of seconds nor ISO "
-                f"8601 date-times ({_short(err)}); write the times in seconds, or pass "
-                "fs=HZ and time_column= naming another column."
+                f"8601 date-times ({_short(err)}); write the times in seconds, or give "
+                "the sampling rate and name another time column."
             ) from err
     if stamps.isna().any():
         i = int(np.flatnonzero(stamps.isna().to_numpy())[0])
@@ -298,11 +328,19 @@ def _analyse_time(frame: pd.DataFrame, t: np.ndarray, col: str, p: Path, fs: flo
     """Sampling rate and continuous runs (row ranges) from a time column in seconds."""
     n = len(t)
     notes: list[str] = []
+    far = np.flatnonzero(np.abs(t) > _MAX_TIME_S)
+    if far.size:
+        i = int(far[0])
+        raise SyncstatsInputError(
+            f"File '{p}', time column {col!r}, {_where_row(frame, i)}: the time {t[i]:.6g} s "
+            f"lies beyond {_MAX_TIME_S:.0e} s (about 31,700 years); write the times in "
+            "seconds from the start of the recording."
+        )
     if n < 2:
         if fs is None:
             raise SyncstatsInputError(
                 f"File '{p}' has a single row, so its time column {col!r} cannot give a "
-                "sampling rate; add rows or pass fs=HZ."
+                "sampling rate; add rows or give the sampling rate."
             )
         return fs, [(0, n)], notes
     dt = np.diff(t)
@@ -325,14 +363,15 @@ def _analyse_time(frame: pd.DataFrame, t: np.ndarray, col: str, p: Path, fs: flo
     if counts.sum() == 0:
         raise SyncstatsInputError(
             f"File '{p}': the time column {col!r} has no two consecutive regular samples; "
-            "check the time column (seconds) or pass fs=HZ for a regular grid."
+            "check the time column (seconds) or give the sampling rate for a regular grid."
         )
     fs_est = float(counts.sum() / spans.sum())
     if fs is not None:
         if abs(fs_est - fs) > _REL_JITTER * fs:
             raise SyncstatsInputError(
-                f"File '{p}': fs={fs:g} Hz disagrees with the time column {col!r}, whose "
-                f"steps give {fs_est:.6g} Hz; drop fs= to use the time column, or fix it."
+                f"File '{p}': the sampling rate given, {fs:g} Hz, disagrees with the time column "
+                f"{col!r}, whose steps give {fs_est:.6g} Hz; leave the rate out to use the "
+                "time column, or fix it."
             )
         rate = fs
     else:
@@ -364,7 +403,7 @@ def _signal_values(frame: pd.DataFrame, col: str, p: Path) -> np.ndarray:
     if pd.api.types.is_bool_dtype(raw):
         raise SyncstatsInputError(
             f"File '{p}': column {col!r} holds true/false values, not numbers; exclude it "
-            "with signals=[...] or write it as numbers."
+            "of the chosen signals or write it as numbers."
         )
     if pd.api.types.is_numeric_dtype(raw):
         x = raw.to_numpy(dtype=float, na_value=np.nan)
@@ -378,7 +417,7 @@ def _signal_values(frame: pd.DataFrame, col: str, p: Path) -> np.ndarray:
             raise SyncstatsInputError(
                 f"File '{p}', column {col!r}, {_where_row(frame, i)}: {raw.iloc[i]!r} is not "
                 f"a number{hint}; fix the value (leave the cell empty for a missing sample), "
-                "or leave this column out with signals=[...]."
+                "or leave this column out of the chosen signals."
             )
         x = num.to_numpy(dtype=float, na_value=np.nan)
     inf = np.flatnonzero(np.isinf(x))
@@ -393,7 +432,7 @@ def _signal_values(frame: pd.DataFrame, col: str, p: Path) -> np.ndarray:
 
 def _frame_to_source(frame: pd.DataFrame, p: Path, kind: str, *, fs: float | None,
                      time_column: str | None, signals: list[str] | None) -> _Source:
-    notes: list[str] = []
+    notes: list[str] = list(frame.attrs.get("notes", []))
     if frame.shape[0] == 0:
         raise SyncstatsInputError(
             f"File '{p}' has a header but no data rows; write one row per sample below "
@@ -405,20 +444,19 @@ def _frame_to_source(frame: pd.DataFrame, p: Path, kind: str, *, fs: float | Non
     if tcol is None and fs is None:
         raise SyncstatsInputError(
             f"File '{p}' has no time column (looked for {', '.join(TIME_COLUMN_NAMES[:4])}, "
-            "...) and no sampling rate was given; pass fs=HZ, or time_column=NAME for "
-            "the column with the sample times in seconds."
+            "...) and no sampling rate was given; give the sampling rate, or name the "
+            "column with the sample times in seconds."
         )
     available = [c for c in cols if c != tcol]
     if signals is not None and tcol is not None and tcol in signals:
         raise SyncstatsInputError(
             f"File '{p}': {tcol!r} is the time column and cannot also be a signal; leave "
-            "it out of signals=, or name another time column with time_column=."
+            "it out of the chosen signals, or name another time column."
         )
     if not available:
         raise SyncstatsInputError(
             f"File '{p}' has no signal columns besides the time column {tcol!r}; if it is "
-            "a list of event times, read it with read_events(path, column=...) or pass it "
-            "as events=."
+            "a list of event times, give it as an event list instead."
         )
     chosen = _select(available, signals, p, "column")
     start_time = None

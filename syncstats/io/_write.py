@@ -127,7 +127,7 @@ def write_events(times, path: str | os.PathLike) -> Path:
     pathlib.Path
         The written path.
     """
-    t = _validate_event_times(times, "write_events(times)")
+    t = _validate_event_times(times, "event list", "to write")
     target = Path(os.fspath(path)).expanduser()
     with _atomic_text(target) as fh:
         fh.write("".join(f"{v!r}\n" for v in t.tolist()))

@@ -236,7 +236,7 @@ def test_edf_round_trip_against_pyedflib(tmp_path):
     w = {k: np.clip(v, -1.9, 1.9) for k, v in w.items()}
     path = tmp_path / "rec.edf"
     start = datetime.datetime(2024, 3, 1, 8, 30, 0)
-    _edf_pyedflib(path, w, FS, annotations=[(1.5, "R"), (2.25, "R"), (3.0, "apnea")],
+    _edf_pyedflib(path, w, FS, annotations=[(1.5, "R"), (2.25, "R"), (3.0, "apnea"), (3.1, "R")],
                   start=start, units={"heart": "mV"})
     reader = pyedflib.EdfReader(str(path))  # the writing library's own reader
     try:
@@ -252,7 +252,7 @@ def test_edf_round_trip_against_pyedflib(tmp_path):
         # 16-bit quantisation: within one digital step of a 4-unit range (EDF
         # specification; pyedflib's writer may truncate rather than round)
         assert np.max(np.abs(rec.signals[name] - w[name])) <= 4.0 / 65535 + 1e-12
-    np.testing.assert_allclose(rec.events["R"], [1.5, 2.25])
+    np.testing.assert_allclose(rec.events["R"], [1.5, 2.25, 3.1])
     assert "apnea" not in rec.events
 
 
@@ -285,7 +285,8 @@ def test_mixed_rates_error_names_signals_and_rates(tmp_path):
         read_recording(path)
     msg = str(e.value)
     _one_sentence(msg)
-    for part in ("mixed.edf", "'fast' 256 Hz", "'slow' 100 Hz", "resample_to=", "signals="):
+    for part in ("mixed.edf", "'fast' 256 Hz", "'slow' 100 Hz", "give a common rate",
+                 "choose signals"):
         assert part in msg
     # one rate selected: no resampling needed
     assert read_recording(path, signals=["slow"]).fs == 100.0
@@ -329,7 +330,7 @@ def _edf_discontinuous(tmp_path: Path) -> tuple[Path, np.ndarray]:
 
 def test_edf_plus_d_gap_error_and_split(tmp_path):
     path, x = _edf_discontinuous(tmp_path)
-    with pytest.raises(SyncstatsInputError, match=r"between 15 s and 20 s.*gaps='split'"):
+    with pytest.raises(SyncstatsInputError, match=r"between 15 s and 20 s.*split the record at gaps"):
         read_recording(path)
     segs = read_segments(path)
     assert [s.name for s in segs] == ["disc#1", "disc#2"]
@@ -341,9 +342,8 @@ def test_edf_plus_d_gap_error_and_split(tmp_path):
 def test_corrupt_edf_wrapped_with_file_name(tmp_path):
     path = tmp_path / "junk.edf"
     path.write_bytes(b"this is not an EDF header " * 20)
-    with pytest.raises(SyncstatsInputError, match=r"junk\.edf' could not be read as EDF") as e:
+    with pytest.raises(SyncstatsInputError, match=r"junk\.edf' is neither EDF nor BDF") as e:
         read_recording(path)
-    assert e.value.__cause__ is not None
     _one_sentence(str(e.value))
 
 
@@ -426,7 +426,7 @@ def test_wfdb_invalid_samples_are_gaps(tmp_path):
     w = _waves()
     w["heart"][1200:1300] = np.nan  # wfdb writes the format's invalid-sample code
     _wfdb_record(tmp_path, "gap", x=w)
-    with pytest.raises(SyncstatsInputError, match=r"signal 'heart'.*12 s.*gaps='split'"):
+    with pytest.raises(SyncstatsInputError, match=r"signal 'heart'.*12 s.*split the record at gaps"):
         read_recording(tmp_path / "gap.hea")
     segs = read_segments(tmp_path / "gap.hea")
     assert [s.duration_s for s in segs] == [pytest.approx(12.0), pytest.approx(17.0)]
@@ -443,7 +443,7 @@ def test_nan_gap_error_message(tmp_path):
         read_recording(path)
     msg = str(e.value)
     _one_sentence(msg)
-    for part in ("g.csv", "'breath'", "12.5 s", "gaps='split'", "read_segments"):
+    for part in ("g.csv", "'breath'", "12.5 s", "split the record at gaps"):
         assert part in msg
 
 
@@ -484,7 +484,7 @@ def test_short_segments_dropped_with_note(tmp_path):
     assert len(segs) == 1 and segs[0].name == "short#1"
     assert any("dropped 1 gap-free piece" in n for n in segs[0].notes)
     assert len(read_segments(path, min_segment_s=0)) == 2
-    with pytest.raises(SyncstatsInputError, match="min_segment_s=100"):
+    with pytest.raises(SyncstatsInputError, match="minimum segment length of 100 s"):
         read_segments(path, min_segment_s=100)
 
 
@@ -575,8 +575,9 @@ def _make_all(tmp_path: Path) -> dict[str, tuple[Path, dict]]:
     _edf_pyedflib(tmp_path / "a.bdf", {k: np.clip(v, -1.9, 1.9) for k, v in _waves(500).items()},
                   FS, bdf=True)
     _wfdb_record(tmp_path, "w")
-    wfdb.wrann("w", "atr", np.array([10, 200]), symbol=["N", "N"], write_dir=str(tmp_path))
-    (tmp_path / "ev.txt").write_text("0.5\n1.5\n")
+    wfdb.wrann("w", "atr", np.array([10, 200, 290]), symbol=["N", "N", "N"],
+               write_dir=str(tmp_path))
+    (tmp_path / "ev.txt").write_text("0.5\n1.5\n2.5\n")
     return {
         "csv": (tmp_path / "a.csv", {"events": tmp_path / "ev.txt"}),
         "parquet": (tmp_path / "a.parquet", {"fs": FS}),
@@ -613,7 +614,7 @@ BAD_FILES = [
     ("header-only", "ho.csv", "time_s,x\n", {}, r"no data rows"),
     ("non-numeric", "nn.csv", "time_s,x\n0,1\n0.01,abc\n0.02,3\n", {},
      r"column 'x', line 3: 'abc' is not a number"),
-    ("no-time-no-fs", "nt.csv", "a,b\n1,2\n3,4\n", {}, r"no time column.*fs=HZ"),
+    ("no-time-no-fs", "nt.csv", "a,b\n1,2\n3,4\n", {}, r"no time column.*give the sampling rate"),
     ("duplicate-time", "dt.csv", "t,x\n0,1\n0.01,2\n0.01,3\n", {}, r"line 4: the time repeats"),
     ("unsorted-time", "ut.csv", "t,x\n0,1\n0.02,2\n0.01,3\n", {}, r"line 4: the time goes back"),
     ("inf-value", "inf.csv", "t,x\n0,1\n0.01,inf\n0.02,3\n", {}, r"column 'x', line 3.*infinite"),
@@ -623,19 +624,20 @@ BAD_FILES = [
     ("missing-time-col", "mt.csv", "t,x\n0,1\n0.01,2\n", {"time_column": "clock"},
      r"no column 'clock'"),
     ("fs-vs-time", "fv.csv", "t,x\n0,1\n0.01,2\n0.02,3\n", {"fs": 50}, r"disagrees"),
-    ("only-time", "ot.csv", "time\n0.5\n1.2\n", {}, r"no signal columns.*read_events"),
+    ("only-time", "ot.csv", "time\n0.5\n1.2\n", {}, r"no signal columns.*give it as an event list"),
     ("unknown-suffix", "x.mat", "abc", {}, r"'.mat'.*\.csv, \.tsv, \.txt, \.parquet, \.edf"),
     ("event-unsorted", "ev1.txt", "1.0\n0.5\n", {}, r"line 2: event time 0.5 s is earlier than the one before it \(1 s\)"),
     ("event-duplicate", "ev2.txt", "0.5\n1.0\n1.0\n", {}, r"line 3: event time 1 s occurs twice"),
     ("event-bad-line", "ev3.txt", "0.5\n1.0\nfoo bar\n", {}, r"line 3: 'foo bar' is not a time"),
     ("corrupt-parquet", "c.parquet", "not parquet", {}, r"could not be read as Parquet"),
-    ("truncated-edf", "t.edf", "0       " + "X" * 300, {}, r"could not be read as EDF"),
+    ("damaged-edf-header", "t.edf", "0       " + "X" * 300, {},
+     r"header field 'number of bytes in header record' holds 'XXXXXXXX'"),
     ("ragged-row", "rr.csv", "t,x\n0,1\n0.01,2,7\n0.02,3\n", {}, r"could not be parsed.*line 3"),
     ("extra-fields", "ef.csv", "t,x\n0,1,5\n0.01,2,7\n", {}, r"line 2 has 3 fields"),
     ("decimal-comma", "dc2.csv", "t;x\n0;1,5\n0.01;2,5\n", {}, r"decimal comma"),
     ("all-missing", "am.csv", "t,x,y\n0,,1\n0.01,,2\n", {}, r"'x' have no valid sample"),
     ("annotation-on-csv", "an.csv", "t,x\n0,1\n0.01,2\n", {"annotation": "atr"},
-     r"annotation= does not apply"),
+     r"annotation option does not apply"),
 ]
 
 
@@ -647,24 +649,26 @@ def test_bad_files(tmp_path, fname, content, opts, pattern):
         read_recording(path, **opts)
     msg = str(e.value)
     _one_sentence(msg)
-    assert fname in msg or "Parameter" in msg
+    assert fname in msg or " option " in msg
 
 
 @pytest.mark.parametrize("fs", [0, -5.0, float("nan"), float("inf"), "fast"])
 def test_bad_fs(tmp_path, fs):
-    with pytest.raises(SyncstatsInputError, match=r"Parameter fs="):
+    with pytest.raises(SyncstatsInputError, match=r"^fs must be a positive number of Hz"):
         read_recording(_write(tmp_path / "x.csv", "a\n1\n2\n"), fs=fs)
 
 
 @pytest.mark.parametrize("opts, pattern", [
-    ({"resample_to": 0}, r"resample_to=0"),
-    ({"gaps": "fill"}, r"gaps='fill'.*'error', 'split'"),
-    ({"min_segment_s": -1}, r"min_segment_s=-1"),
-    ({"signals": []}, r"signals is an empty list"),
+    ({"resample_to": 0}, r"resample_to must be a positive number of Hz, got 0"),
+    ({"gaps": "fill"}, r"gaps option 'fill'.*'error', 'split'"),
+    ({"min_segment_s": -1}, r"^min_segment_s \(minimum segment length, s\) must be .*got -1"),
+    ({"signals": []}, r"signals option is an empty list"),
     ({"signals": ["a", "a"]}, r"more than once"),
-    ({"format": "hdf5"}, r"format='hdf5'"),
-    ({"events": 3.5}, r"neither a path nor a mapping"),
-    ({"events": {"b": [2.0, 1.0]}}, r"events\['b'\], position 1.*not sorted"),
+    ({"format": "hdf5"}, r"format option 'hdf5'"),
+    ({"allow_truncated": "maybe"}, r"allow_truncated must be true or false"),
+    ({"events": 3.5}, r"events option 3.5 is neither a file path"),
+    ({"events": {"b": [2.0, 1.0, 3.0]}}, r"event list 'b' is not sorted \(first at 1 s\)"),
+    ({"events": {"b": [1.0, 2.0]}}, r"event list 'b' needs at least 3 event times"),
 ])
 def test_bad_options(tmp_path, opts, pattern):
     path = _csv(tmp_path, n=200)
@@ -684,15 +688,16 @@ def test_missing_files(tmp_path):
         read_recording(tmp_path / "rec.hea", annotation="qrs")
     with pytest.raises(SyncstatsInputError, match=r"event file .*gone\.txt' does not exist"):
         read_recording(tmp_path / "rec.hea", events=tmp_path / "gone.txt")
-    with pytest.raises(SyncstatsInputError, match=r"fs= does not apply"):
+    with pytest.raises(SyncstatsInputError, match=r"sampling rate option does not apply"):
         read_recording(tmp_path / "rec.hea", fs=100)
 
 
 def test_event_name_clash(tmp_path):
     _wfdb_record(tmp_path)
-    wfdb.wrann("rec", "atr", np.array([10, 200]), symbol=["N", "N"], write_dir=str(tmp_path))
-    with pytest.raises(SyncstatsInputError, match=r"'atr' is given by events="):
-        read_recording(tmp_path / "rec.hea", annotation="atr", events={"atr": [1.0]})
+    wfdb.wrann("rec", "atr", np.array([10, 200, 290]), symbol=["N", "N", "N"],
+               write_dir=str(tmp_path))
+    with pytest.raises(SyncstatsInputError, match=r"'atr' is given as an event list and also comes from file"):
+        read_recording(tmp_path / "rec.hea", annotation="atr", events={"atr": [1.0, 2.0, 3.0]})
 
 
 def test_accepted_suffixes_listed():
@@ -710,12 +715,32 @@ def test_io_imports_no_other_syncstats_layer():
             if isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
                 mod = node.module
                 if mod.startswith("syncstats"):
-                    assert mod in ("syncstats._errors",) or mod.startswith("syncstats.io"), \
+                    assert mod in ("syncstats._errors", "syncstats._checks") or \
+                        mod.startswith("syncstats.io"), \
                         f"{path.name} imports {mod}"
             if isinstance(node, ast.ImportFrom) and node.level == 2:
-                assert node.module == "_errors", f"{path.name} imports ..{node.module}"
+                assert node.module in ("_errors", "_checks"), f"{path.name} imports ..{node.module}"
             if isinstance(node, ast.Import):
                 for alias in node.names:
                     assert not alias.name.startswith("syncstats") or \
                         alias.name.startswith("syncstats.io"), f"{path.name} imports {alias.name}"
     assert os.path.isdir(folder)
+
+
+def test_io_modules_import_each_other_without_cycles():
+    folder = Path(__file__).resolve().parents[2] / "syncstats" / "io"
+    deps = {}
+    for path in folder.glob("*.py"):
+        deps[path.stem] = {node.module for node in ast.walk(ast.parse(path.read_text()))
+                           if isinstance(node, ast.ImportFrom) and node.level == 1 and node.module}
+    done: set[str] = set()
+
+    def visit(mod, stack):
+        assert mod not in stack, f"import cycle: {' -> '.join([*stack, mod])}"
+        if mod not in done:
+            for dep in deps.get(mod, ()):
+                visit(dep, [*stack, mod])
+            done.add(mod)
+
+    for mod in deps:
+        visit(mod, [])
