@@ -411,7 +411,7 @@ def power_curve(*, lengths, couplings, kind="phase", length_unit="s", measure="p
     return PowerCurve(table=table, p_values=pv, values=val, params=params)
 
 
-def required_length(*, coupling, lengths, target_power=0.8, **options):
+def required_length(*, coupling, lengths=None, target_power=0.8, curve=None, **options):
     """Shortest length on the grid ``lengths`` whose simulated power reaches the target.
 
     Bisection over the sorted grid (power grows with length), each step one
@@ -431,6 +431,10 @@ def required_length(*, coupling, lengths, target_power=0.8, **options):
         Any other :func:`power_curve` keyword (kind, measure, surrogate, n_surrogates,
         n_replicas, alpha, rng, executor, ...).
 
+    curve : PowerCurve, optional
+        Read the answer from this curve's cells at ``coupling`` instead of simulating
+        (``lengths`` and ``options`` are then ignored).
+
     Returns
     -------
     dict
@@ -442,7 +446,20 @@ def required_length(*, coupling, lengths, target_power=0.8, **options):
                                    hint="Give the coupling strength to detect.")
     target_power = _checks.check_float(target_power, "required_length: target_power", low=0, high=1, open_low=True,
                                        open_high=True)
-    if np.isscalar(lengths) or len(lengths) == 0:
+    if curve is not None:
+        if not isinstance(curve, PowerCurve):
+            raise SyncstatsInputError("required_length: curve must be a PowerCurve from power_curve, or None.")
+        tab = curve.table[np.isclose(curve.table["coupling"], coupling)].sort_values("length").reset_index(drop=True)
+        if tab.empty:
+            raise SyncstatsInputError(
+                f"required_length: the curve has no cells at coupling {coupling:g}; pick one of "
+                f"{', '.join(f'{k:g}' for k in sorted(set(curve.table['coupling'])))}."
+            )
+        ok, cons = tab[tab["power"] >= target_power], tab[tab["ci_low"] >= target_power]
+        return dict(length=None if ok.empty else float(ok["length"].min()),
+                    length_conservative=None if cons.empty else float(cons["length"].min()),
+                    target_power=target_power, table=tab)
+    if lengths is None or np.isscalar(lengths) or len(lengths) == 0:
         raise SyncstatsInputError("required_length: lengths must be a list of candidate lengths, e.g. [60, 120, 240].")
     grid = sorted(dict.fromkeys(_checks.check_float(v, "required_length: lengths", low=0, open_low=True)
                                 for v in lengths))
