@@ -7,7 +7,10 @@ Research software, not a medical device.
 >>> result.table  # doctest: +SKIP
 """
 from ._errors import SyncstatsInputError, SyncstatsWarning
+from . import claims, power
 from .api import AnalysisResult, analyze
+from .claims import check_claim, retest
+from .power import power_curve, required_length
 from .results import COLUMNS
 
 try:
@@ -17,4 +20,17 @@ try:
 except Exception:  # pragma: no cover
     __version__ = "0+unknown"
 
-__all__ = ["analyze", "AnalysisResult", "COLUMNS", "SyncstatsInputError", "SyncstatsWarning", "__version__"]
+__all__ = [
+    "analyze",
+    "AnalysisResult",
+    "COLUMNS",
+    "SyncstatsInputError",
+    "SyncstatsWarning",
+    "__version__",
+    "check_claim",
+    "retest",
+    "power_curve",
+    "required_length",
+    "claims",
+    "power",
+]

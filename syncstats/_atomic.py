@@ -128,3 +128,27 @@ def write_folder_atomically(
                 break
         raise
     return out
+
+
+def write_file_atomically(path, write: Callable[[Path], None]) -> Path:
+    """Create the file ``path`` with what ``write(tmp_path)`` writes, or nothing at all.
+
+    An existing ``path`` is never replaced (choose a new name); the file is written under
+    a hidden temporary name in the same folder and renamed into place.
+    """
+    out = Path(os.path.abspath(os.fspath(path)))
+    if out.exists() or out.is_symlink():
+        raise SyncstatsInputError(f"output file '{path}' already exists; choose a new name.")
+    if not out.parent.is_dir():
+        raise SyncstatsInputError(f"the folder of output file '{path}' does not exist; create it first.")
+    tmp = out.parent / f".{out.name}.partial-{uuid.uuid4().hex[:8]}"
+    try:
+        write(tmp)
+        os.link(tmp, out)  # fails if out appeared meanwhile: never replaces a file
+    except FileExistsError:
+        raise SyncstatsInputError(f"output file '{path}' appeared while writing; choose a new name.") from None
+    except OSError as err:
+        raise SyncstatsInputError(f"cannot write output file '{path}' ({err.strerror}); choose another place.") from None
+    finally:
+        tmp.unlink(missing_ok=True)
+    return out

@@ -109,6 +109,7 @@ CONFIG_KEYS = {
     "resample_to": _num(0, open_low=True),
     "annotation": _str,
     "time_column": _str,
+    "allow_truncated": lambda v, key: check_bool(v, f"option {key}"),
 }
 
 
@@ -161,6 +162,8 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
     opt("--resample-to", "bring signals of different rates to this rate (Hz)", dest="resample_to")
     opt("--annotation", "EDF+/WFDB annotation to read as events (e.g. R, atr)")
     opt("--time-column", "name of the time column in a table", dest="time_column")
+    opt("--allow-truncated", "analyse a cut-off EDF/BDF/WFDB file up to its last complete record (a warning says "
+        "what was cut)", dest="allow_truncated", action="store_const", const=True)
     opt("--config", "TOML file with any of these options (command-line options win)")
     opt("--out", "output folder (must not exist or be empty)", required=True)
     opt("--overwrite", "replace an existing output folder", action="store_true")
@@ -189,6 +192,49 @@ def _build_parser() -> argparse.ArgumentParser:
     )
     a.add_argument("input", help="CSV/TSV, Parquet, EDF/BDF, WFDB (.hea) or an event list (.txt)")
     _add_analysis_options(a, MEASURE_METHODS, SURROGATE_METHODS, CORRECTION_METHODS, CI_METHODS)
+
+    c = sub.add_parser("check-claim", help="check a reported synchrony claim from its numbers alone",
+                       description="What a reported locking index and p-value can support, given how many cycles "
+                       "it rests on and how much was searched (no data needed).")
+    c.add_argument("--index", choices=("plv", "ppc"), default="plv", help="index reported (default plv)")
+    c.add_argument("--value", required=True, help="reported value of the index")
+    c.add_argument("--p", type=float, help="p-value claimed")
+    c.add_argument("--p-bound", action="store_true", dest="p_bound", help="the p-value was reported as a bound (p < ...)")
+    c.add_argument("--test", choices=("rayleigh", "rayleigh_samples", "rayleigh_cycles", "surrogate"),
+                   help="test the claim used")
+    c.add_argument("--cycles", type=float, help="cycles of the slower rhythm (instead of duration and frequencies)")
+    c.add_argument("--duration", type=float, help="record duration in seconds")
+    c.add_argument("--freq-a", type=float, dest="freq_a", help="frequency of rhythm A, Hz")
+    c.add_argument("--freq-b", type=float, dest="freq_b", help="frequency of rhythm B, Hz")
+    c.add_argument("--fs", type=float, help="sampling rate, Hz (for an every-sample test)")
+    c.add_argument("--ratio", default="1:1", help="ratio p:q tested (default 1:1)")
+    c.add_argument("--n-ratios", type=int, default=1, dest="n_ratios", help="ratios searched (default 1)")
+    c.add_argument("--n-pairs", type=int, default=1, dest="n_pairs", help="pairs searched (default 1)")
+    c.add_argument("--n-windows", type=int, default=1, dest="n_windows", help="windows searched (default 1)")
+    c.add_argument("--n-surrogates", type=int, dest="n_surrogates", help="surrogates the claim used")
+    c.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
+    c.add_argument("--correction", choices=("bonferroni", "sidak"), default="bonferroni",
+                   help="correction for the declared search (default bonferroni)")
+    c.add_argument("--ci", help="reported confidence interval LOW,HIGH")
+    c.add_argument("--out", help="write the table to this CSV file")
+
+    w = sub.add_parser("power", help="power by simulation: how long to record, how strong a coupling is detectable",
+                       description="Power of the surrogate test as a function of record length and coupling "
+                       "strength, by simulating coupled rhythms with known truth.")
+    w.add_argument("--lengths", required=True, help="comma-separated record lengths, e.g. 60,120,240")
+    w.add_argument("--couplings", required=True, help="comma-separated coupling strengths, e.g. 0,0.3")
+    w.add_argument("--unit", choices=("s", "cycles"), default="s", help="unit of --lengths (default s)")
+    w.add_argument("--kind", default="phase", help="simulated rhythm family (default phase)")
+    w.add_argument("--measure", default="plv", help="measure (default plv)")
+    w.add_argument("--surrogate", default="fourier", help="surrogate method (default fourier)")
+    w.add_argument("--n-surrogates", type=int, default=39, dest="n_surrogates", help="surrogates per replica (default 39)")
+    w.add_argument("--replicas", type=int, default=100, help="simulated replicas per cell (default 100)")
+    w.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
+    w.add_argument("--fs", type=float, help="sampling rate of the simulation, Hz")
+    w.add_argument("--target", type=float, help="target power: report the shortest length reaching it")
+    w.add_argument("--jobs", type=int, help="worker processes")
+    w.add_argument("--seed", type=int, help="seed")
+    w.add_argument("--out", help="output folder for power.csv and power.png (must not exist)")
 
     d = sub.add_parser("demo", help="run the whole job on the bundled demo study",
                        description="Analyse the bundled demo study (simulated) and write the four output files.")
@@ -313,6 +359,7 @@ def _run_analyze(args):
         time_column=opts.get("time_column"),
         annotation=opts.get("annotation"),
         resample_to=opts.get("resample_to"),
+        allow_truncated=bool(opts.get("allow_truncated", False)),
     )
     if opts.get("gaps", "error") == "split":
         recs = sio.read_segments(args.input, gaps="split", **read_kw)
@@ -370,6 +417,62 @@ def _run_simulate(args):
     return 0
 
 
+def _floats(text, opt):
+    try:
+        vals = [float(x) for x in str(text).split(",") if x.strip()]
+    except ValueError:
+        vals = []
+    if not vals:
+        raise SyncstatsInputError(f"{opt} must be comma-separated numbers, e.g. 60,120; got {text!r}.")
+    return vals
+
+
+def _run_check_claim(args):
+    from .claims import check_claim
+
+    ci = None
+    if args.ci:
+        vals = _floats(args.ci, "--ci")
+        if len(vals) != 2:
+            raise SyncstatsInputError(f"--ci must be LOW,HIGH (two numbers); got {args.ci!r}.")
+        ci = tuple(vals)
+    chk = check_claim(index=args.index, value=args.value, p_claimed=args.p, p_is_bound=args.p_bound,
+                      test=args.test, n_cycles=args.cycles, duration_s=args.duration, freq_a=args.freq_a,
+                      freq_b=args.freq_b, fs=args.fs, ratio=args.ratio, n_ratios=args.n_ratios,
+                      n_pairs=args.n_pairs, n_windows=args.n_windows, n_surrogates=args.n_surrogates,
+                      alpha=args.alpha, correction=args.correction, ci=ci)
+    print(chk)
+    if args.out:
+        from ._atomic import write_file_atomically
+
+        write_file_atomically(args.out, lambda f: chk.table.to_csv(f, index=False))
+    return 0
+
+
+def _run_power(args):
+    from ._atomic import write_folder_atomically
+    from .power import power_curve, required_length
+
+    curve = power_curve(lengths=_floats(args.lengths, "--lengths"), couplings=_floats(args.couplings, "--couplings"),
+                        length_unit=args.unit, kind=args.kind, measure=args.measure, surrogate=args.surrogate,
+                        n_surrogates=args.n_surrogates, n_replicas=args.replicas, alpha=args.alpha, fs=args.fs,
+                        executor="processes" if args.jobs and args.jobs > 1 else None, n_jobs=args.jobs,
+                        rng=args.seed)
+    print(curve.table.to_string(index=False))
+    if args.target is not None:
+        for k in sorted(set(curve.table.coupling) - {0.0}):
+            r = required_length(coupling=k, curve=curve, target_power=args.target)
+            print(f"coupling {k:g}: shortest length with power >= {args.target:g}: {r['length']}")
+    if args.out:
+        def build(folder):
+            curve.table.to_csv(folder / "power.csv", index=False)
+            fig = curve.figure(target_power=args.target)
+            fig.savefig(folder / "power.png", dpi=120)
+
+        write_folder_atomically(args.out, build)
+    return 0
+
+
 def _plain_warnings():
     """Show analysis warnings as one plain line each on stderr (no file/line noise)."""
     from ._errors import SyncstatsWarning
@@ -400,7 +503,8 @@ def main(argv=None) -> int:
         if args.command is None:
             parser.print_help(sys.stderr)
             return 2
-        return {"analyze": _run_analyze, "demo": _run_demo, "simulate": _run_simulate}[args.command](args)
+        return {"analyze": _run_analyze, "demo": _run_demo, "simulate": _run_simulate,
+                "check-claim": _run_check_claim, "power": _run_power}[args.command](args)
     except SyncstatsInputError as err:
         if debug:
             raise
