@@ -295,35 +295,35 @@ class Measure:
     citations: tuple[str, ...]
 
 
-def _blocks(x, s):
-    """(T, n, k) -> (n_blocks, s, k): whole blocks of s samples inside each trial; the
-    incomplete tail of each trial is left out."""
-    t, n = x.shape[0], x.shape[1]
-    nb = n // s
-    if nb == 0:  # a span shorter than one cycle: each trial is one block
-        return x
-    return x[:, : nb * s].reshape(t * nb, s, x.shape[-1])
+def _block_ids(t: int, n: int, s: int) -> tuple[np.ndarray, int]:
+    """Block number of every sample of (T, n): consecutive runs of s samples inside each
+    trial, the last (shorter) run of a trial being a block of its own; -> (ids (T, n), count)."""
+    per = max(-(-n // s), 1)
+    return np.arange(t)[:, None] * per + np.minimum(np.arange(n) // s, per - 1)[None, :], t * per
+
+
+def _block_sums(x, s):
+    """(T, n, k) -> (n_blocks, k + 1): per-block sums of the k columns and the sample count."""
+    t, n, k = x.shape
+    ids, nblk = _block_ids(t, n, s)
+    flat = ids.ravel()
+    cols = [np.bincount(flat, weights=x[..., j].ravel(), minlength=nblk) for j in range(k)]
+    cols.append(np.bincount(flat, minlength=nblk).astype(float))
+    return np.stack(cols, axis=1)
 
 
 def _block_bincount(idx, nb, s, weights=None):
     """Per-block bin sums: idx (T, n) of bin numbers -> (n_blocks, nb)."""
     t, n = idx.shape
-    nblk = max(n // s, 1)
-    s_eff = n // nblk if n // s == 0 else s
-    use = nblk * s_eff
-    blk = (np.arange(t)[:, None] * nblk + np.arange(use)[None, :] // s_eff)
-    flat = (blk * nb + idx[:, :use]).ravel()
-    w = None if weights is None else weights[:, :use].ravel()
-    return np.bincount(flat, weights=w, minlength=t * nblk * nb).reshape(t * nblk, nb)
+    ids, nblk = _block_ids(t, n, s)
+    flat = (ids * nb + idx).ravel()
+    w = None if weights is None else weights.ravel()
+    return np.bincount(flat, weights=w, minlength=nblk * nb).reshape(nblk, nb)
 
 
-def _phasor_blocks(v):
+def _phasor(v):
     e = np.exp(1j * v.psi)
-    return _blocks(np.stack([e.real, e.imag], axis=-1), v.stride)
-
-
-def _with_count(blk):
-    return np.concatenate([blk.sum(axis=1), np.full((blk.shape[0], 1), blk.shape[1])], axis=1)
+    return np.stack([e.real, e.imag], axis=-1)
 
 
 def _plv_value(v):
@@ -331,7 +331,7 @@ def _plv_value(v):
 
 
 def _plv_blocks(v):
-    return _with_count(_phasor_blocks(v)), lambda z: np.hypot(z[..., 0], z[..., 1]) / z[..., 2]
+    return _block_sums(_phasor(v), v.stride), lambda z: np.hypot(z[..., 0], z[..., 1]) / z[..., 2]
 
 
 def _ppc_value(v):
@@ -341,7 +341,9 @@ def _ppc_value(v):
 
 
 def _ppc_blocks(v):
-    z = _phasor_blocks(v).mean(axis=1)  # cycle-mean phasors (n_blocks, 2)
+    e, s = _phasor(v), v.stride
+    n = e.shape[1] // s * s  # whole cycles only, as the measure itself
+    z = e[:, :n].reshape(e.shape[0] * (n // s), s, 2).mean(axis=1)  # cycle-mean phasors (n_blocks, 2)
     st = np.column_stack([z, (z**2).sum(axis=1), np.ones(len(z))])
 
     def fn(u):
@@ -395,7 +397,7 @@ def _order_value(v):
 
 def _order_blocks(v):
     rt = np.abs(np.mean(np.exp(1j * _group_stack(v)), axis=0))  # (T, n): R(t)
-    return _with_count(_blocks(rt[..., None], v.stride)), lambda z: z[..., 0] / z[..., 1]
+    return _block_sums(rt[..., None], v.stride), lambda z: z[..., 0] / z[..., 1]
 
 
 _VINCK = "Vinck M, et al. (2010). NeuroImage 51:112–122."

@@ -1,0 +1,86 @@
+"""Direct tests of analyze's stages: the one pipeline, the design, the measure registry."""
+import numpy as np
+import pytest
+
+import syncstats
+from syncstats import inference as inf
+from syncstats._inputs import collect_inputs
+from syncstats.measures import MEASURE_METHODS
+from syncstats.nulls import SURROGATE_METHODS
+from syncstats.phase import event_phase, protophase_to_phase
+from syncstats.pipeline import Pipeline
+
+from ..golden.cases import _events, _wander
+
+
+def _pipe(kind, protophase=False):
+    if kind == "signals":
+        inp = collect_inputs(_wander(seed=1), 20.0)
+    elif kind == "trials":
+        inp = collect_inputs(_wander(n=400, seed=5, trials=6), 20.0)
+    elif kind == "events":
+        cont, evs = _events(seed=3)
+        inp = collect_inputs(cont, 20.0, events=evs)
+    else:
+        rng = np.random.default_rng(4)
+        pa = np.cumsum(rng.normal(2 * np.pi / 20, 0.05, 3000))
+        inp = collect_inputs(None, 20.0, phases={"a": pa, "b": pa + rng.normal(0, 0.6, 3000)})
+    return Pipeline.fix(inp, protophase_correction=protophase)
+
+
+@pytest.mark.parametrize("protophase", [False, True])
+@pytest.mark.parametrize("kind", ["signals", "trials", "events", "phases"])
+def test_surrogate_path_reproduces_the_data_when_the_surrogate_is_the_data(kind, protophase):
+    """Data and surrogates go through one pipeline: feeding the data's own inputs through
+    the surrogate path gives the data's phases exactly (protophase correction included)."""
+    pl = _pipe(kind, protophase)
+    inp = pl.inputs
+    raw = {n: inp.raw[n][None] for n in inp.raw}
+    events = {n: [inp.events[n]] for n in inp.events}
+    phases = {n: pl.data[n][None] for n in inp.user_phases}
+    got = pl.phases(raw=raw, events=events, phases=phases)
+    for n in inp.names:
+        np.testing.assert_array_equal(got[n][0], pl.data[n])
+
+
+def test_surrogate_event_phases_get_the_protophase_correction_too():
+    pl = _pipe("events", protophase=True)
+    ev = pl.inputs.events["heart"]
+    shuffled = SURROGATE_METHODS["interval_shuffle"].make(ev, [np.random.default_rng(0)])
+    corrected = pl.phases(events={"heart": shuffled})["heart"][0, 0]
+    full = event_phase(shuffled[0], pl.inputs.t)
+    ok = np.isfinite(full)
+    expected = full.copy()
+    expected[ok] = protophase_to_phase(full[ok])
+    np.testing.assert_array_equal(corrected, pl.span(expected))
+    assert np.max(np.abs(corrected - pl.span(full))) > 1e-5  # the correction did act
+
+
+@pytest.mark.parametrize("measure", sorted(MEASURE_METHODS))
+def test_cycle_block_statistics_sum_to_the_measure(measure):
+    """The bootstrap resamples cycle blocks: the sum over all blocks must give the
+    measure itself (for PPC: whole cycles, the identity of Vinck et al. 2010)."""
+    pl = _pipe("signals")
+    design = inf.make_design(pl, ratios=[(1, 1), (2, 1)], measures=(measure,))
+    values = design.family.evaluate(pl.data)
+    for i, r in enumerate(design.rows):
+        st, fn = design.family.block_stats(pl.data, r)
+        assert fn(st.sum(axis=0)) == pytest.approx(values[i], rel=1e-9, abs=1e-12)
+
+
+def test_design_counts_rows_and_refuses_short_windows():
+    pl = _pipe("signals")
+    d = inf.make_design(pl, ratios="1:1,2:1", measures=("plv", "ppc"), windows=40.0)
+    assert len(d.rows) == 2 * 3 * 2 and d.describe("plv").startswith("6 tests of plv: 1 pair(s) x 2 ratio(s)")
+    with pytest.raises(syncstats.SyncstatsInputError, match="cycles"):
+        inf.make_design(pl, windows=5.0)
+
+
+def test_every_registry_entry_is_complete():
+    for e in SURROGATE_METHODS.values():
+        assert e.level in ("signal", "phase", "event") and e.acts_on in ("signal", "signals", "phase", "events")
+        assert e.label and e.description and e.null_hypothesis.endswith(".") and e.citations
+    for m in MEASURE_METHODS.values():
+        assert m.kind in ("pair", "group") and m.label and m.description and m.citations
+    for c in inf.CORRECTION_METHODS.values():
+        assert c.controls in ("FDR", "FWER", "none") and c.label
