@@ -376,7 +376,7 @@ def check_claim(*, index="plv", value, p_claimed=None, p_is_bound=False, test=No
         Sampling rate (Hz) of the analysed phases; with ``duration_s`` it gives the
         sample count for the every-sample Rayleigh comparison.
     ratio : (p, q) or "p:q"
-        A makes p cycles while B makes q (DESIGN.md convention).
+        A makes p cycles while B makes q (the project's ratio convention).
     n_ratios, n_pairs, n_windows : int
         How many ratios, pairs and windows were searched (the search size is their
         product; count what the authors looked at, not only what they report).

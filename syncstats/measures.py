@@ -1,6 +1,6 @@
 """Locking measures on phase arrays (pure numpy; broadcast over leading axes).
 
-Ratio convention (DESIGN.md): ``p:q`` means signal A completes p cycles while B
+Ratio convention (the project's contract): ``p:q`` means signal A completes p cycles while B
 completes q; the generalized phase difference is ``psi = q·phi_A − p·phi_B``.
 Phases are unwrapped radians with time on the last axis.
 """

@@ -116,7 +116,7 @@ def protophase_to_phase(theta: np.ndarray, n_harmonics: int = 10) -> np.ndarray:
     theta : ndarray, shape (..., N)
         Unwrapped protophase.
     n_harmonics : int, default 10
-        K; METHODS.md suggests 10–20 (the selection criterion of the papers is not
+        K; 10–20 is usual (Kralemann et al. 2008) (the selection criterion of the papers is not
         implemented: K is fixed by the caller).
 
     References

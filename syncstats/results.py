@@ -1,4 +1,4 @@
-"""The tidy results table (contract schema in DESIGN.md) and the result object."""
+"""The tidy results table (the contract schema) and the result object."""
 from __future__ import annotations
 
 from dataclasses import dataclass, field
@@ -56,7 +56,7 @@ COLUMN_SPEC: tuple[Column, ...] = (
     Column("null_level", "object", "", "what the surrogates randomised: signal, phase or event"),
 )
 
-#: contract columns, in order (DESIGN.md); the extra columns follow them
+#: contract columns, in order (the contract); the extra columns follow them
 COLUMNS = tuple(c.name for c in COLUMN_SPEC[:28])
 #: columns after the contract ones
 EXTRA_COLUMNS = tuple(c.name for c in COLUMN_SPEC[28:])

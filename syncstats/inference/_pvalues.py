@@ -112,7 +112,7 @@ def _statsmodels(method):
     return lambda p, observed=None, null=None: multipletests(p, method=method)[1]
 
 
-def _per_test(m, alpha):  # the smallest p must pass alpha/m (FDR: m/q − 1, METHODS.md)
+def _per_test(m, alpha):  # the smallest p must pass alpha/m (FDR: m/q − 1, Phipson & Smyth 2010)
     return int(np.ceil(max(int(m), 1) / alpha - 1))
 
 
@@ -165,7 +165,7 @@ def adjust(pvalues: np.ndarray, method: str, *, observed=None, null=None) -> np.
 def min_surrogates(n_tests: int, alpha: float, method: str) -> int:
     """Smallest surrogate count B at which the family can reach significance.
 
-    FDR methods: B >= m/q − 1 (METHODS.md); Bonferroni/Holm: the smallest p must pass
+    FDR methods: B >= m/q − 1 (the smallest attainable p, 1/(1 + B), must pass q/m); Bonferroni/Holm: the smallest p must pass
     alpha/m, so B >= m/alpha − 1; max-statistic and single tests: B >= 1/alpha − 1.
     """
     return CORRECTION_METHODS[method].min_surrogates(n_tests, alpha)

@@ -39,6 +39,7 @@ from ._common import (
     correction_name,
     verdict,
 )
+from ..results import COLUMN_SPEC
 from ._methods import CAUTION, methods_text
 from ._provenance import build_provenance
 
@@ -481,6 +482,14 @@ def _method_block(result, prov: dict) -> str:
             "the methods text above is also in methods.md.</p></div>")
 
 
+def _glossary() -> str:
+    rows = "".join(f"<tr><td><code>{esc(c.name)}</code></td><td>{esc(c.unit)}</td><td>{esc(c.meaning)}</td></tr>"
+                   for c in COLUMN_SPEC)
+    return (f'<details><summary>{len(COLUMN_SPEC)} columns, one row per recording × pair × ratio × window × '
+            f"measure</summary><table><thead><tr><th>column</th><th>unit</th><th>meaning</th></tr></thead>"
+            f"<tbody>{rows}</tbody></table></details>")
+
+
 def _notes_block(result) -> str:
     notes = [str(n) for n in (result.notes or []) if str(n).strip()]
     if not notes:
@@ -529,6 +538,7 @@ def render_html(result, *, max_figure_pairs: int = MAX_FIGURE_PAIRS, provenance:
     add("numbers", "The numbers", _results_table(table, summaries))
     add("checks", "Signal checks", _diagnostics(result))
     add("method", "How it was done", _notes_block(result) + _method_block(result, prov))
+    add("glossary", "What each column of results.csv means", _glossary())
     add("caution", "Before you use these results",
         f'<div class="caution"><p><b>{esc(CAUTION)}</b></p><p class="small">A significant '
         "result says that the observed locking is unlikely under the null the surrogates "

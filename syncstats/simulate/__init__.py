@@ -32,7 +32,7 @@ Ground truth, scenarios and demo data
 Conventions
 -----------
 * Ratio p:q: unit A (index 0) completes p cycles while B (index 1) completes q;
-  psi = q phi_A - p phi_B (DESIGN.md). For N units, ``ratio`` lists one cycle number
+  psi = q phi_A - p phi_B. For N units, ``ratio`` lists one cycle number
   per unit.
 * ``coupling[i, j]`` is the strength with which unit j acts on unit i (rows receive,
   columns drive); a scalar means global coupling K/N.

@@ -102,7 +102,7 @@ def beat_train(duration, fs, *, heart_freq=1.0, breath_freq=0.25, ratio=(4, 1),
         (used by the demo to change the physiological state).
     ratio : (p, q)
         Ratio of the coupling term: heart completes p beats while breathing completes
-        q cycles (DESIGN.md convention; (4, 1) = four beats per breath).
+        q cycles ((4, 1) = four beats per breath).
     coupling : float or (times_s, values)
         epsilon in rad/s: the breathing phase acts on the pacemaker phase through
         epsilon sin(p phi_R - q phi_H). Locking iff |q w_H - p w_R| < q epsilon.

@@ -208,7 +208,7 @@ def coupling_summary(C, k_global):
 
 def check_ratio(ratio, n: int, func: str) -> np.ndarray:
     """Cycle numbers per unit: ``ratio=(p, q)`` means unit 0 completes p cycles while
-    unit 1 completes q (DESIGN.md convention). ``None`` means all 1 (1:1)."""
+    unit 1 completes q. ``None`` means all 1 (1:1)."""
     if ratio is None:
         return np.ones(n, dtype=int)
     try:

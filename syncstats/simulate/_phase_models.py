@@ -181,7 +181,7 @@ def phase_oscillators(n_units, duration, fs, *, freqs, coupling=0.0, ratio=None,
         normalisation); a 1-D array gives one global K per replica. Default 0.
     ratio : sequence of N positive ints, optional
         Cycle numbers m_i: unit i completes m_i cycles while unit j completes m_j. For
-        a pair, ``ratio=(p, q)`` is the DESIGN.md ratio p:q (unit 0 = A makes p cycles
+        a pair, ``ratio=(p, q)`` is the ratio p:q (unit 0 = A makes p cycles
         while unit 1 = B makes q). Default: all 1 (1:1).
     noise : float or array_like (N,)
         Intrinsic noise sigma_i in rad/sqrt(s) (phase diffusion: the phase variance of a

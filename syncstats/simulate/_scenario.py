@@ -448,7 +448,7 @@ _DOC_ARGS = """
         True: coupled strongly enough to lock at ``ratio`` (except "damped_noise",
         which becomes linearly correlated but cannot lock).
     ratio : (p, q) or None
-        A completes p cycles while B completes q (DESIGN.md). Default (1, 1); (4, 1)
+        A completes p cycles while B completes q. Default (1, 1); (4, 1)
         for "beats". The natural frequencies are f_A = f_B (p/q)(1 + detuning).
     duration : float
         Seconds (default 300).

@@ -146,7 +146,7 @@ def phase_slips(phase_a, phase_b, *, ratio=(1, 1), hysteresis=0.5, per_cycle=Tru
     phase_a, phase_b : array_like, shape (n,)
         Unwrapped phases in radians (e.g. ``Simulation.phases``).
     ratio : (p, q)
-        DESIGN.md convention.
+        project convention.
     hysteresis : float
         Radians beyond +-pi (around the circular mean of psi) that psi must move before
         a slip is counted, so that noise at the boundary is not counted twice.

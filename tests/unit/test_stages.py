@@ -84,3 +84,50 @@ def test_every_registry_entry_is_complete():
         assert m.kind in ("pair", "group") and m.label and m.description and m.citations
     for c in inf.CORRECTION_METHODS.values():
         assert c.controls in ("FDR", "FWER", "none") and c.label
+
+
+def test_readme_column_list_is_the_column_spec():
+    """The README's column list is written from results.COLUMN_SPEC (one description)."""
+    from pathlib import Path
+
+    from syncstats.results import COLUMN_SPEC, COLUMNS, columns_markdown
+
+    text = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+    block = text.split("<!-- columns:start")[1].split("-->", 1)[1].split("<!-- columns:end -->")[0]
+    assert block.strip() == columns_markdown()
+    assert tuple(c.name for c in COLUMN_SPEC[: len(COLUMNS)]) == COLUMNS
+
+
+def test_a_new_surrogate_needs_only_its_registry_entry(monkeypatch, tmp_path):
+    """DEVELOPERS.md's worked example: one registry entry makes a new method usable by
+    analyze, the report, the methods text and the command line."""
+    from syncstats.nulls import SurrogateMethod
+    from syncstats.nulls._validation import _as_channels, _check_rngs
+
+    def random_rotation(x, rngs):
+        x2, _ = _as_channels(x, "random_rotation")
+        rngs = _check_rngs(rngs, "random_rotation")
+        n = x2.shape[-1]
+        lags = [g.integers(n // 4, 3 * n // 4 + 1) for g in rngs]
+        return np.stack([np.roll(x2, k, axis=-1) for k in lags])
+
+    entry = SurrogateMethod(
+        "random_rotation", random_rotation, level="signal", acts_on="signal", targets="all_but_first",
+        make=random_rotation, label="randomly rotated",
+        description="randomly rotated copies of the raw signals, each passed through the phase pipeline",
+        null_hypothesis="Each signal keeps its own dynamics and the alignment between them is arbitrary.",
+        failure_cases="Very regular rhythms look alike at every lag, so the null is weak.",
+        citations=("Test entry (2026). Not a paper.",),
+    )
+    monkeypatch.setitem(SURROGATE_METHODS, "random_rotation", entry)
+    res = syncstats.analyze(_wander(seed=1), fs=20.0, surrogate="random_rotation", n_surrogates=19, n_bootstrap=0,
+                            rng=1)
+    row = res.table.iloc[0]
+    assert row.surrogate == "random_rotation" and row.null_level == "signal" and row.p_value == pytest.approx(0.05)
+    out = res.save(tmp_path / "out")
+    methods = (out / "methods.md").read_text(encoding="utf-8")
+    assert "randomly rotated copies" in methods and "Test entry (2026)" in methods
+    assert "randomly rotated" in (out / "report.html").read_text(encoding="utf-8")
+    from syncstats.cli import _build_parser
+
+    assert "random_rotation" in _build_parser()._subparsers._group_actions[0].choices["analyze"].format_help()
