@@ -170,14 +170,16 @@ def analyze(
         null = inf.null_distribution(pipe, design.family, opt.surrogate, opt.n_surrogates, opt.seed, options=options,
                                      batch_size=opt.batch_size, executor=executor, n_jobs=opt.n_jobs,
                                      progress=opt.progress)
-    test = inf.test_family(observed, null, design, opt.correction, opt.alpha)
+    pref, ncyc = design.row_summaries(pipe.data)
+    test = inf.test_family(observed, null, design, opt.correction, opt.alpha, n_cycles=ncyc)
+    chosen = inf.choose_ratios(design, pipe.data, observed, test, alpha=opt.alpha,
+                               n_resamples=opt.n_bootstrap or 199, seed=opt.seed)
     intervals = inf.row_intervals(design.family, pipe.data, opt.seed, n_resamples=opt.n_bootstrap,
                                   level=opt.ci_level, method=opt.ci_method)
     diags = pipe.diagnostics()
-    pref, ncyc = design.row_summaries(pipe.data)
     table = build_table(
         design, recording=inputs.recording, time_s=pipe.time_s, fs=inputs.fs, observed=observed, test=test,
-        intervals=intervals, preferred_phase=pref, n_cycles=ncyc,
+        ratios=chosen, intervals=intervals, preferred_phase=pref, n_cycles=ncyc,
         row_warnings=_row_warnings(design, diags, method_warn, ncyc, test, opt.n_surrogates),
         surrogate=opt.surrogate, n_surrogates=opt.n_surrogates, alpha=opt.alpha, ci_level=opt.ci_level,
         ci_method=opt.ci_method, n_bootstrap=opt.n_bootstrap, null_level=level,

@@ -284,6 +284,10 @@ class Measure:
         Words for the methods text.
     citations : tuple of str
         Papers, as "Author (year). Journal volume:pages."
+    chance_sd : callable or None
+        ``chance_sd(n_cycles)``: the measure's standard deviation under independence for
+        that many independent cycles (a floor for null spreads in the max-statistic);
+        None where no closed form is used.
     """
 
     name: str
@@ -293,6 +297,21 @@ class Measure:
     block_stats: Callable
     description: str
     citations: tuple[str, ...]
+    chance_sd: Callable | None = None
+
+
+def _rayleigh_sd(n):
+    """SD of the mean resultant length of n independent uniform angles: the Rayleigh
+    distribution of sqrt(n)·R has variance (4 − π)/4 (closed form, large n)."""
+    return np.sqrt((4 - np.pi) / (4 * np.maximum(np.asarray(n, dtype=float), 1.0)))
+
+
+def _ppc_sd(n):
+    """SD of the PPC of n independent uniform unit phasors: the mean of the n(n−1)/2
+    pair products cos(θ_j − θ_k), pairwise uncorrelated with variance 1/2, so
+    var = 2/(n(n − 1)) (closed form)."""
+    n = np.maximum(np.asarray(n, dtype=float), 2.0)
+    return np.sqrt(2.0 / (n * (n - 1.0)))
 
 
 def _block_ids(t: int, n: int, s: int) -> tuple[np.ndarray, int]:
@@ -409,11 +428,11 @@ MEASURE_METHODS: dict[str, Measure] = {
     for m in (
         Measure("plv", "PLV", "pair", _plv_value, _plv_blocks,
                 "the phase-locking value (PLV, the length of the time average of the unit vector exp(iψ))",
-                ("Mormann F, et al. (2000). Physica D 144:358–369.",)),
+                ("Mormann F, et al. (2000). Physica D 144:358–369.",), _rayleigh_sd),
         Measure("ppc", "PPC", "pair", _ppc_value, _ppc_blocks,
                 "the pairwise phase consistency (PPC: the mean over all pairs of different cycles of the product "
                 "of their cycle-mean phasors, an estimate of the squared PLV that is not biased by the number of "
-                "cycles)", (_VINCK,)),
+                "cycles)", (_VINCK,), _ppc_sd),
         Measure("entropy_index", "entropy index", "pair", _entropy_value, _entropy_blocks,
                 "the Shannon-entropy index of the distribution of ψ", (_TASS,)),
         Measure("conditional_index", "conditional-probability index", "pair", _conditional_value,

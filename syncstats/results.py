@@ -46,6 +46,10 @@ COLUMN_SPEC: tuple[Column, ...] = (
     Column("correction", "object", "", "correction method"),
     Column("family", "object", "", "what the correction counted (tests of one measure: pairs x ratios x windows)"),
     Column("significant", "boolean", "", "p_adjusted < alpha: independence rejected at this row"),
+    Column("locked", "boolean", "", "this row's ratio is the one the rhythms lock at (the largest debiased effect "
+           "among the ratios tested for the pair and window) and it is significant; empty when nothing was tested"),
+    Column("ratio_certainty", "float64", "", "share of cycle-block bootstrap resamples in which this pair's selected "
+           "ratio keeps the largest debiased effect (0–1); empty where one ratio was tested"),
     Column("ci_low", "float64", "", "lower end of the confidence interval of value"),
     Column("ci_high", "float64", "", "upper end of the confidence interval of value"),
     Column("ci_level", "float64", "", "confidence level of the interval"),
@@ -56,10 +60,11 @@ COLUMN_SPEC: tuple[Column, ...] = (
     Column("null_level", "object", "", "what the surrogates randomised: signal, phase or event"),
 )
 
+_N_CONTRACT = [c.name for c in COLUMN_SPEC].index("warnings") + 1
 #: contract columns, in order (the contract); the extra columns follow them
-COLUMNS = tuple(c.name for c in COLUMN_SPEC[:28])
+COLUMNS = tuple(c.name for c in COLUMN_SPEC[:_N_CONTRACT])
 #: columns after the contract ones
-EXTRA_COLUMNS = tuple(c.name for c in COLUMN_SPEC[28:])
+EXTRA_COLUMNS = tuple(c.name for c in COLUMN_SPEC[_N_CONTRACT:])
 
 _DTYPES = {c.name: c.dtype for c in COLUMN_SPEC}
 
@@ -86,7 +91,7 @@ def finalize_table(rows: list[Mapping[str, Any]]) -> pd.DataFrame:
     df = pd.DataFrame(list(rows))
     for c in COLUMNS:
         if c not in df:
-            df[c] = np.nan if _DTYPES[c] == "float64" else ""
+            df[c] = {"float64": np.nan, "boolean": pd.NA}.get(_DTYPES[c], "")
     extra = [c for c in df.columns if c not in COLUMNS]
     df = df[list(COLUMNS) + extra]
     for c in COLUMNS:
@@ -99,7 +104,7 @@ def finalize_table(rows: list[Mapping[str, Any]]) -> pd.DataFrame:
     return df.reset_index(drop=True)
 
 
-def build_table(design, *, recording, time_s, fs, observed, test, intervals, preferred_phase, n_cycles,
+def build_table(design, *, recording, time_s, fs, observed, test, ratios, intervals, preferred_phase, n_cycles,
                 row_warnings, surrogate, n_surrogates, alpha, ci_level, ci_method, n_bootstrap, null_level):
     """The tidy table from the stages' outputs (arrays aligned with ``design.rows``)."""
     has_inf = n_surrogates > 0
@@ -132,6 +137,8 @@ def build_table(design, *, recording, time_s, fs, observed, test, intervals, pre
             "correction": test.correction if has_inf else "",
             "family": test.family[i],
             "significant": bool(test.p_adjusted[i] < alpha) if has_inf else pd.NA,
+            "locked": pd.NA if ratios.locked[i] is None else bool(ratios.locked[i]),
+            "ratio_certainty": float(ratios.certainty[i]),
             "ci_low": ci.value.low,
             "ci_high": ci.value.high,
             "ci_level": float(ci_level) if n_bootstrap else float("nan"),

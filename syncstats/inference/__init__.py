@@ -2,7 +2,8 @@
 pushed through the data's pipeline, p-values, corrections, effect sizes and intervals.
 
 Stages (each a function returning a small frozen object): :func:`make_design` ->
-:func:`null_distribution` -> :func:`test_family` -> :func:`row_intervals`.
+:func:`null_distribution` -> :func:`test_family` -> :func:`choose_ratios` ->
+:func:`row_intervals`.
 """
 from ._bootstrap import CI_METHODS, Interval, RowIntervals, angle_ci, block_ci, row_intervals
 from ._circular import rayleigh_test
@@ -11,6 +12,7 @@ from ._family import Family, Row
 from ._nulls import NullJob, check_method, method_options, null_distribution
 from ._pvalues import (CORRECTION_METHODS, CORRECTIONS, Correction, adjust, max_stat_adjust, min_surrogates,
                        surrogate_pvalue)
+from ._ratios import RatioChoice, choose_ratios
 from ._testing import FamilyTest, test_family
 
 __all__ = [
@@ -24,11 +26,13 @@ __all__ = [
     "Interval",
     "MIN_CYCLES",
     "NullJob",
+    "RatioChoice",
     "Row",
     "RowIntervals",
     "adjust",
     "angle_ci",
     "block_ci",
+    "choose_ratios",
     "check_method",
     "make_design",
     "max_stat_adjust",

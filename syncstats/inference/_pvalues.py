@@ -36,14 +36,16 @@ def surrogate_pvalue(observed: np.ndarray, null: np.ndarray) -> np.ndarray:
     return (1.0 + k) / (1.0 + null.shape[0])
 
 
-def _standardize(observed, null):
+def _standardize(observed, null, floor=None):
     mu = null.mean(axis=0)
     sd = null.std(axis=0, ddof=1)
+    if floor is not None:
+        sd = np.maximum(sd, np.nan_to_num(np.asarray(floor, dtype=float), nan=0.0))
     sd = np.where(sd > 0, sd, np.inf)  # a degenerate null column can never win the max
     return (observed - mu) / sd, (null - mu) / sd
 
 
-def max_stat_adjust(observed: np.ndarray, null: np.ndarray, *, step_down: bool = True) -> np.ndarray:
+def max_stat_adjust(observed: np.ndarray, null: np.ndarray, *, step_down: bool = True, floor=None) -> np.ndarray:
     """Family-wise adjusted p-values by the standardized max-statistic.
 
     Each statistic is standardized against its own surrogates (z); inside each surrogate
@@ -53,6 +55,15 @@ def max_stat_adjust(observed: np.ndarray, null: np.ndarray, *, step_down: bool =
     enforces monotone adjusted p-values; it is uniformly more powerful than single step
     and controls the FWER under subset pivotality.
 
+    ``floor`` (F,) is a lower bound on each statistic's null standard deviation: the
+    sampling spread the measure has under independence for that many cycles (e.g. the
+    Rayleigh spread of the PLV). Where a null's own spread collapses — a ratio at which
+    the phase difference rotates steadily gives almost the same tiny value for every
+    time-shifted surrogate — an unfloored z would turn a meaningless difference (PLV
+    0.0021 against 0.0017) into the family maximum. The floor is a fixed, per-hypothesis
+    scale applied to observed and null values alike, so the max-statistic keeps its
+    family-wise error control.
+
     References
     ----------
     Westfall PH, Young SS (1993) Resampling-Based Multiple Testing, Wiley.
@@ -60,7 +71,7 @@ def max_stat_adjust(observed: np.ndarray, null: np.ndarray, *, step_down: bool =
     observed = np.asarray(observed, dtype=float)
     null = np.asarray(null, dtype=float)
     b, f = null.shape
-    z_obs, z_null = _standardize(observed, null)
+    z_obs, z_null = _standardize(observed, null, floor)
     z_obs = np.where(np.isfinite(z_obs), z_obs, -np.inf)
     z_null = np.where(np.isfinite(z_null), z_null, -np.inf)
     tol = _tolerance(z_obs[np.isfinite(z_obs)]).max() if np.any(np.isfinite(z_obs)) else 0.0
@@ -93,7 +104,8 @@ class Correction:
         Noun phrase for the methods text.
     citations : tuple of str
     adjust : callable
-        ``adjust(pvalues, observed, null) -> adjusted p-values`` over one family.
+        ``adjust(pvalues, observed, null, floor) -> adjusted p-values`` over one family
+        (``floor``: lower bounds of the null spreads, used by the max-statistic).
     min_surrogates : callable
         ``min_surrogates(m, alpha) -> int``: smallest surrogate count at which a family
         of m tests can reach significance.
@@ -109,7 +121,7 @@ class Correction:
 
 
 def _statsmodels(method):
-    return lambda p, observed=None, null=None: multipletests(p, method=method)[1]
+    return lambda p, observed=None, null=None, floor=None: multipletests(p, method=method)[1]
 
 
 def _per_test(m, alpha):  # the smallest p must pass alpha/m (FDR: m/q − 1, Phipson & Smyth 2010)
@@ -137,11 +149,13 @@ CORRECTION_METHODS: dict[str, Correction] = {
         Correction("max_stat", "max-statistic family-wise", "FWER",
                    "a max-statistic family-wise correction: each statistic was standardised against its own "
                    "surrogates and compared with the distribution of the maximum over the family within each "
-                   "surrogate (step-down)",
+                   "surrogate (step-down; each null spread floored at the measure's chance spread for the "
+                   "row's number of cycles)",
                    ("Westfall PH, Young SS (1993). Resampling-Based Multiple Testing. Wiley.",),
-                   lambda p, observed=None, null=None: max_stat_adjust(observed, null), _single),
+                   lambda p, observed=None, null=None, floor=None: max_stat_adjust(observed, null, floor=floor),
+                   _single),
         Correction("none", "no", "none", "no correction for multiple tests", (),
-                   lambda p, observed=None, null=None: np.asarray(p, dtype=float).copy(), _single),
+                   lambda p, observed=None, null=None, floor=None: np.asarray(p, dtype=float).copy(), _single),
     )
 }
 
@@ -149,7 +163,7 @@ CORRECTION_METHODS: dict[str, Correction] = {
 CORRECTIONS = tuple(CORRECTION_METHODS)
 
 
-def adjust(pvalues: np.ndarray, method: str, *, observed=None, null=None) -> np.ndarray:
+def adjust(pvalues: np.ndarray, method: str, *, observed=None, null=None, floor=None) -> np.ndarray:
     """Adjusted p-values over one family with the correction ``method``
     (:data:`CORRECTION_METHODS`; ``max_stat`` needs ``observed`` and ``null``)."""
     p = np.asarray(pvalues, dtype=float)
@@ -159,7 +173,7 @@ def adjust(pvalues: np.ndarray, method: str, *, observed=None, null=None) -> np.
         )
     if p.size == 0:
         return p.copy()
-    return CORRECTION_METHODS[method].adjust(p, observed=observed, null=null)
+    return CORRECTION_METHODS[method].adjust(p, observed=observed, null=null, floor=floor)
 
 
 def min_surrogates(n_tests: int, alpha: float, method: str) -> int:

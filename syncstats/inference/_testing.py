@@ -6,6 +6,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..measures import MEASURE_METHODS
 from ._pvalues import adjust, min_surrogates, surrogate_pvalue
 
 __all__ = ["FamilyTest", "test_family"]
@@ -29,8 +30,12 @@ class FamilyTest:
     notes: tuple[str, ...]
 
 
-def test_family(observed, null, design, correction: str, alpha: float) -> FamilyTest:
-    """p = (1 + #{null >= observed}) / (1 + S); one correction family per measure."""
+def test_family(observed, null, design, correction: str, alpha: float, n_cycles=None) -> FamilyTest:
+    """p = (1 + #{null >= observed}) / (1 + S); one correction family per measure.
+
+    ``n_cycles`` (per row) sets the floor of each null spread for the max-statistic: the
+    measure's spread under independence for that many cycles (``Measure.chance_sd``).
+    """
     f = len(design.rows)
     nan = np.full(f, np.nan)
     if null is None:
@@ -41,7 +46,9 @@ def test_family(observed, null, design, correction: str, alpha: float) -> Family
     fam, few, notes = [""] * f, np.zeros(f, bool), []
     for m in dict.fromkeys(r.measure for r in design.rows):
         idx = [i for i, r in enumerate(design.rows) if r.measure == m]
-        p_adj[idx] = adjust(p_val[idx], correction, observed=observed[idx], null=null[:, idx])
+        sd_fn = MEASURE_METHODS[m].chance_sd
+        floor = sd_fn(np.asarray(n_cycles)[idx]) if (sd_fn is not None and n_cycles is not None) else None
+        p_adj[idx] = adjust(p_val[idx], correction, observed=observed[idx], null=null[:, idx], floor=floor)
         txt = design.describe(m)
         for i in idx:
             fam[i] = txt

@@ -148,9 +148,11 @@ def _split_windows(rows: pd.DataFrame) -> tuple[pd.DataFrame, pd.DataFrame]:
 
 def _rank_key(rows: pd.DataFrame, measure_order: list) -> pd.DataFrame:
     sig = rows["significant"].map(_truthy)
+    locked = rows.apply(_is_locked, axis=1) if len(rows) else sig
     order = {m: i for i, m in enumerate(measure_order)}
     key = pd.DataFrame(
         {
+            "not_locked": ~locked.astype(bool),
             "not_sig": ~sig.astype(bool),
             "padj": rows["p_adjusted"].astype(float).fillna(np.inf),
             "praw": rows["p_value"].astype(float).fillna(np.inf),
@@ -164,15 +166,23 @@ def _rank_key(rows: pd.DataFrame, measure_order: list) -> pd.DataFrame:
     return key
 
 
+def _is_locked(row) -> bool:
+    """The row's ``locked`` flag; tables without one (older files) fall back to
+    ``significant``."""
+    lk = row.get("locked") if hasattr(row, "get") else None
+    return _truthy(row["significant"]) if is_missing(lk) else _truthy(lk)
+
+
 def best_row(rows: pd.DataFrame, measure_order: list):
-    """Significant first, then smallest corrected p, smallest raw p, preferred measure,
+    """Locked first (the selected ratio, significant), then significant, then smallest
+    corrected p, smallest raw p, preferred measure,
     largest effect (value above its null mean: when p-values sit at their floor 1/(1+S),
     z is dominated by a tiny null spread, the effect is what a reader compares), largest
     value."""
     if rows.empty:
         return None
     key = _rank_key(rows, measure_order)
-    key = key.sort_values(["not_sig", "padj", "praw", "mrank", "nege", "negv"], kind="stable")
+    key = key.sort_values(["not_locked", "not_sig", "padj", "praw", "mrank", "nege", "negv"], kind="stable")
     return rows.loc[key.index[0]]
 
 
@@ -187,14 +197,26 @@ def measure_order(table: pd.DataFrame, params: dict) -> list:
     return out
 
 
-def _at_resolution_floor(row) -> bool:
+def _at_resolution_floor(row, table=None, alpha=None) -> bool:
     """True when no surrogate reached the observed value (p = 1/(1 + S), the smallest
-    p-value S surrogates can give) and yet the row is not significant: the test could not
-    resolve the question with this many surrogates."""
+    p-value S surrogates can give), the row is not significant, and more surrogates could
+    change that: S is below what the correction needs for this family size (the
+    correction registry's ``min_surrogates``). With enough surrogates a corrected p above
+    alpha is an answer, not a lack of resolution."""
     n, p = row["n_surrogates"], row["p_value"]
     if is_missing(n) or is_missing(p) or int(n) <= 0:
         return False
-    return float(p) <= (1.0 + 1e-9) / (1 + int(n))
+    if float(p) > (1.0 + 1e-9) / (1 + int(n)):
+        return False
+    corr = CORRECTION_METHODS.get(str(row["correction"]))
+    if corr is None or alpha is None or table is None:
+        return True
+    first = str(row.get("family", "")).split(" ", 1)[0]
+    if first.isdigit():
+        m = int(first)
+    else:
+        m = int(((table["recording"] == row["recording"]) & (table["measure"] == row["measure"])).sum())
+    return int(n) < corr.min_surrogates(m, float(alpha))
 
 
 def summarize_pairs(table: pd.DataFrame, params: dict) -> list[PairSummary]:
@@ -202,6 +224,7 @@ def summarize_pairs(table: pd.DataFrame, params: dict) -> list[PairSummary]:
     if table is None or table.empty:
         return []
     morder = measure_order(table, params)
+    alpha = params.get("alpha") if isinstance(params, dict) else None
     out = []
     groups = table.groupby(["recording", "signal_a", "signal_b"], sort=False, dropna=False)
     for (rec, a, b), rows in groups:
@@ -215,15 +238,16 @@ def summarize_pairs(table: pd.DataFrame, params: dict) -> list[PairSummary]:
             tested = valid["p_adjusted"].notna().any() or valid["p_value"].notna().any()
             if not tested:
                 status = "untested"
+            elif _is_locked(head):
+                status = "locked"
             else:
-                status = "locked" if _truthy(head["significant"]) else "none"
-            if status == "none" and _at_resolution_floor(head):
+                status = "dependent" if _truthy(head["significant"]) else "none"
+            if status == "none" and _at_resolution_floor(head, table, alpha):
                 status = "inconclusive"
         also = []
-        if status == "locked":
+        if status in ("locked", "dependent"):  # significant but not the locking ratio
             sig = cand[cand["significant"].map(_truthy)]
             also = [r for r in dict.fromkeys(sig["ratio"].tolist()) if r != head["ratio"]]
-        alpha = params.get("alpha") if isinstance(params, dict) else None
         out.append(
             PairSummary(str(rec), str(a), str(b), rows, whole, windows, head, status, also,
                         None if alpha is None else float(alpha))
@@ -233,7 +257,7 @@ def summarize_pairs(table: pd.DataFrame, params: dict) -> list[PairSummary]:
 
 def evidence_order(summaries: list[PairSummary]) -> list[PairSummary]:
     """Pairs with the strongest evidence first (for choosing which get figures)."""
-    rank = {"locked": 0, "inconclusive": 1, "none": 2, "untested": 3, "failed": 4}
+    rank = {"locked": 0, "dependent": 1, "inconclusive": 2, "none": 3, "untested": 4, "failed": 5}
 
     def key(s: PairSummary):
         h = s.headline
@@ -299,8 +323,16 @@ def verdict(s: PairSummary) -> tuple[str, str, str]:
             win_txt = f" in {n_sig} of {len(w)} windows (strongest at {fmt_num(h['window_start_s'], 0)}–{fmt_num(h['window_end_s'], 0)} s)"
     at = f" at {ratio_txt}" if ratio_txt else ""
     if s.status == "locked":
-        also = f"; also at {', '.join(s.also_locked)}" if s.also_locked else ""
-        return "phase-locked", who, f"phase-locked{at}{win_txt} — {_stat_clause(h)}{also}."
+        cert = h.get("ratio_certainty") if hasattr(h, "get") else None
+        cert_txt = (f"; this ratio had the largest effect in {100 * float(cert):.0f}% of resamples"
+                    if cert is not None and not is_missing(cert) else "")
+        also = (f"; dependent but not locked at {', '.join(s.also_locked)} (significant, smaller effect)"
+                if s.also_locked else "")
+        return "phase-locked", who, f"phase-locked{at}{win_txt} — {_stat_clause(h)}{cert_txt}{also}."
+    if s.status == "dependent":
+        return "dependent", who, (
+            f"not independent, but no tested ratio stands out as the locking ratio{win_txt} — significant{at}: "
+            f"{_stat_clause(h)}; a larger effect at another ratio was not significant.")
     if s.status == "inconclusive":
         n = int(h["n_surrogates"])
         a_txt = f" α = {s.alpha:g}" if s.alpha is not None else " the chosen level"

@@ -91,6 +91,7 @@ border-radius:999px;padding:2px 0;margin-top:2px;white-space:nowrap;width:128px;
 .chip.none{background:var(--slate);color:var(--ink)}
 .chip.untested{background:var(--amber-soft);color:#8a520d;border:1px solid var(--amber)}
 .chip.inconclusive{background:#fff;color:#8a520d;border:1px dashed var(--amber)}
+.chip.dependent{background:#fff;color:var(--ink);border:1px solid var(--teal)}
 .chip.failed{background:var(--brick-soft);color:var(--brick);border:1px solid var(--brick)}
 .who{font-weight:650}
 .small{font-size:13px;color:var(--muted)}

@@ -18,6 +18,8 @@ DELIBERATE = {
     "*": "every table, ci_* columns only: the cycle blocks of the bootstrap now include each trial's last, "
     "incomplete cycle, so the resampled statistic is the value itself (all other columns bit-identical; "
     "checked column by column when rewritten)",
+    "group_max_stat": "p_adjusted only: the max-statistic floors each null spread at the measure's chance spread "
+    "for the row's cycles (PLV, PPC), so a collapsed null spread no longer inflates z",
 }
 
 

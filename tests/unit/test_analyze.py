@@ -11,7 +11,7 @@ from ..conftest import diffusing_pair, sine_pair
 CONTRACT = [
     "recording", "signal_a", "signal_b", "ratio", "p", "q", "window_start_s", "window_end_s",
     "measure", "value", "n_cycles", "preferred_phase", "surrogate", "n_surrogates", "null_mean",
-    "null_sd", "effect", "z", "p_value", "p_adjusted", "correction", "family", "significant",
+    "null_sd", "effect", "z", "p_value", "p_adjusted", "correction", "family", "significant", "locked", "ratio_certainty",
     "ci_low", "ci_high", "ci_level", "ci_method", "warnings",
 ]
 

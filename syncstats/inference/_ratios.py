@@ -1,0 +1,82 @@
+"""Which ratio the rhythms lock at, and how sure that choice is.
+
+A significant row rejects *independence* at its ratio; when several ratios of one pair
+are tested, a lock at one ratio makes the rhythms dependent at every ratio, so a
+neighbouring ratio can be significant too. The question a user asks is "at which ratio
+are they locked?". Procedure, for every pair x window x measure with more than one ratio:
+
+1. the **selected ratio** is the one with the largest debiased effect (value minus the
+   null mean; the value itself when nothing was tested);
+2. its **certainty** is the share of cycle-block bootstrap resamples (the blocks of the
+   intervals, resampled jointly for all ratios of the pair, so their dependence is kept)
+   in which the same ratio keeps the largest debiased effect;
+3. a row is **locked** when it is the selected ratio and it is significant after the
+   correction; every other ratio is "dependent but not locked at this ratio" (if
+   significant) or "no evidence" — never locked.
+
+With one ratio tested, ``locked`` equals ``significant`` and the certainty is empty.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = ["RatioChoice", "choose_ratios"]
+
+_CHUNK = 100  # resamples per chunk (memory: chunk x blocks x statistics)
+
+
+@dataclass(frozen=True)
+class RatioChoice:
+    """Per row: ``locked`` (object array of True / False / None when nothing was tested)
+    and ``certainty`` (float, NaN where one ratio was tested)."""
+
+    locked: np.ndarray
+    certainty: np.ndarray
+    selected: np.ndarray  # bool: the row is its group's selected ratio
+
+
+def choose_ratios(design, data, observed, test, *, alpha, n_resamples, seed) -> RatioChoice:
+    rows = design.rows
+    tested = not np.all(np.isnan(test.p_adjusted))
+    debiased = observed - np.nan_to_num(test.null_mean, nan=0.0)
+    groups: dict = {}
+    for i, r in enumerate(rows):
+        key = (r.kind, r.a, r.b, r.w0, r.w1, r.measure)
+        groups.setdefault(key, []).append(i)
+    selected = np.zeros(len(rows), bool)
+    certainty = np.full(len(rows), np.nan)
+    key0 = tuple(seed.spawn_key) + (2**31 - 2,)
+    for g, idx in enumerate(groups.values()):
+        if len(idx) == 1:
+            selected[idx[0]] = True
+            continue
+        best = idx[int(np.argmax(debiased[idx]))]
+        selected[best] = True
+        rng = np.random.default_rng(np.random.SeedSequence(seed.entropy, spawn_key=key0 + (g,)))
+        c = _certainty(design.family, data, [rows[i] for i in idx], np.nan_to_num(test.null_mean[idx], nan=0.0),
+                       idx.index(best), n_resamples, rng)
+        certainty[idx] = c
+    sig = test.p_adjusted < alpha
+    locked = np.array([bool(selected[i] and sig[i]) if tested else None for i in range(len(rows))], dtype=object)
+    return RatioChoice(locked, certainty, selected)
+
+
+def _certainty(family, data, rows, null_mean, best, n_resamples, rng) -> float:
+    stats = [family.block_stats(data, r) for r in rows]
+    nblk = {st.shape[0] for st, _ in stats}
+    if len(nblk) != 1 or n_resamples < 1:
+        return float("nan")
+    nb = nblk.pop()
+    if nb < 3:
+        return float("nan")
+    wins, done = 0, 0
+    while done < n_resamples:
+        k = min(_CHUNK, n_resamples - done)
+        pick = rng.integers(0, nb, size=(k, nb))
+        with np.errstate(invalid="ignore", divide="ignore"):
+            vals = np.stack([fn(st[pick].sum(axis=1)) for st, fn in stats], axis=1) - null_mean[None, :]
+        wins += int(np.sum(np.argmax(np.nan_to_num(vals, nan=-np.inf), axis=1) == best))
+        done += k
+    return wins / n_resamples
