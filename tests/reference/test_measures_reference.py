@@ -5,7 +5,7 @@ Every check names its source beside the value; the values live in reference_valu
 import numpy as np
 import pingouin as pg
 import pytest
-from scipy import integrate, special, stats
+from scipy import integrate, stats
 
 from syncstats import measures as M
 from syncstats.inference import rayleigh_test
@@ -59,19 +59,14 @@ def test_rayleigh_fisher_example():
 def test_von_mises_plv_expectation(row):
     # E[PLV] -> A(kappa) = I1(kappa)/I0(kappa) (scipy.special; A&S Table 9.8);
     # independent von Mises samples: E[PPC] = A(kappa)^2 (Vinck et al. 2010).
+    # (the stored A(kappa) is the expected value; checking it against scipy.special would
+    # test scipy and the file, not syncstats, so it is not done here)
     k = row["kappa"]
-    assert special.i1e(k) / special.i0e(k) == pytest.approx(row["expected_plv"], abs=1e-9)
     rng = np.random.default_rng(int(10 * k))
     psi = stats.vonmises.rvs(k, size=(400, 500), random_state=rng)
     big = stats.vonmises.rvs(k, size=200_000, random_state=rng)
     assert M.plv(big) == pytest.approx(row["expected_plv"], abs=4e-3)
     assert np.mean(M.ppc(psi)) == pytest.approx(row["expected_plv"] ** 2, abs=5e-3)
-
-
-def test_bessel_table_values_via_scipy():
-    # Abramowitz & Stegun Table 9.8 (e^-x I0(x)) as quoted in REFERENCES.md
-    for r in load_ref("bessel_as_table_9_8.csv").to_dict("records"):
-        assert special.i0e(r["x"]) == pytest.approx(r["exp_neg_x_I0"], abs=1e-10)
 
 
 def test_uniform_phases_expectations():
@@ -106,8 +101,7 @@ def test_entropy_index_worked_values():
     psi = np.repeat(centers, c["counts"])
     assert M.entropy_index(psi, n_bins=nb) == pytest.approx(c["rho"], abs=c["tol"])
     rule = ref["bin_rule"]
-    for n, raw, rounded in zip(rule["n"], rule["raw"], rule["rounded"]):
-        assert np.exp(0.626 + 0.4 * np.log(n - 1)) == pytest.approx(raw, abs=0.01)
+    for n, rounded in zip(rule["n"], rule["rounded"]):
         assert M.entropy_bins(n) == rounded
 
 
@@ -140,7 +134,6 @@ def test_adler_time_averaged_plv_on_simulated_phases(row):
     val = M.plv(M.phase_difference(phi_a[:-1], phi_b[:-1]))
     assert val == pytest.approx(row["plv"], abs=2e-4)
     assert M.preferred_phase(psi[:-1]) == pytest.approx(np.pi / 2, abs=1e-3)
-    assert nu - np.sqrt(nu**2 - 1) == pytest.approx(row["plv"], abs=1e-8)
 
 
 def test_adler_locked_regime_plv_one():

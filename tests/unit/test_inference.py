@@ -55,8 +55,9 @@ def test_min_surrogates_rule():
 
 def test_block_bootstrap_ci_covers_the_von_mises_plv():
     # Independent von Mises angles, one per "cycle": the PLV's 90% CI should cover the
-    # large-sample value A(kappa) = I1/I0 about 90% of the time (Efron & Tibshirani 1993;
-    # coverage of the percentile interval is approximate: 0.9 +- 0.06 accepted).
+    # large-sample value A(kappa) = I1/I0 about 90% of the time (Efron & Tibshirani 1993).
+    # Judged against the binomial 99% band of the coverage at 200 replicas, [0.84, 0.95]
+    # (scipy.stats.binom; measured 0.865 with this seed).
     rng = np.random.default_rng(3)
     kappa = 2.0
     truth = i1e(kappa) / i0e(kappa)
@@ -68,5 +69,6 @@ def test_block_bootstrap_ci_covers_the_von_mises_plv():
         lo, hi = block_ci(st, lambda z: np.hypot(z[..., 0], z[..., 1]) / z[..., 2], n_resamples=499, level=0.9,
                           method="percentile", rng=rng)
         cover += lo <= truth <= hi
-    assert 0.84 <= cover / reps <= 0.96
+    lo, hi = stats.binom.ppf([0.005, 0.995], reps, 0.9) / reps
+    assert lo <= cover / reps <= hi, f"coverage {cover / reps:.3f} outside [{lo:.3f}, {hi:.3f}]"
     assert M.plv(psi) == pytest.approx(truth, abs=0.1)

@@ -70,9 +70,19 @@ FAMILIES = (
 
 
 def band(r: int, alpha: float = ALPHA):
-    """Binomial 99 % band of the rejection share for r replicas at nominal alpha."""
+    """Binomial 99 % band of the rejection share for r replicas at nominal alpha.
+
+    ``scipy.stats.binom.ppf([0.005, 0.995], r, alpha) / r`` (common practice for
+    Monte-Carlo calibration checks). A share above the upper end has probability at most
+    0.5 % when the test has size alpha.
+    """
     lo, hi = stats.binom.ppf([0.005, 0.995], r, alpha)
     return lo / r, hi / r
+
+
+def fpr_upper(r: int, alpha: float = ALPHA) -> float:
+    """Upper end of the binomial 99 % band: the largest FPR a size-alpha test passes."""
+    return band(r, alpha)[1]
 
 
 def _inputs(batch, i, fam: Family):
