@@ -65,8 +65,9 @@ def analytic_phase(x: np.ndarray, fs: float, band=None, *, remove_trend: bool = 
 
 
 @lru_cache(maxsize=32)
-def _spectral_kernel(n: int, fs: float, band) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(slope projector, ramp spectrum · weights) for :func:`analytic_from_spectrum`.
+def _spectral_kernel(n: int, fs: float, band):
+    """(slope projector, gain, ramp spectrum x gain, first and end live bin) for
+    :func:`analytic_from_spectrum`.
 
     ``slope = Re(X · proj)`` is the least-squares slope of the signal whose rfft is X
     (Parseval: sum_t x_t c_t = (1/n) sum_k w_k Re(X_k conj(C_k)), w = 1 at DC and at the
@@ -88,11 +89,15 @@ def _spectral_kernel(n: int, fs: float, band) -> tuple[np.ndarray, np.ndarray, n
     if band is not None:
         gain *= bandpass_gain(spfft.rfftfreq(n, d=1.0 / fs), fs, band)
     gain[0] = 0.0  # the mean is removed with the trend
-    for a in (proj, gain):
+    # bins where the gain is below 1e-12 of its peak are treated as zero (a band-pass
+    # keeps a small part of the axis: only those bins are touched per surrogate)
+    live = np.flatnonzero(gain > 1e-12 * gain.max()) if gain.max() > 0 else np.arange(0)
+    lo, hi = (int(live[0]), int(live[-1]) + 1) if live.size else (0, 0)
+    ramp_g = (ramp * gain)[lo:hi]
+    gain = gain[lo:hi]
+    for a in (proj, gain, ramp_g):
         a.setflags(write=False)
-    ramp_g = ramp * gain
-    ramp_g.setflags(write=False)
-    return proj, gain, ramp_g
+    return proj, gain, ramp_g, lo, hi
 
 
 def analytic_from_spectrum(spec: np.ndarray, n: int, fs: float, band=None, *, remove_trend: bool = True) -> np.ndarray:
@@ -103,9 +108,9 @@ def analytic_from_spectrum(spec: np.ndarray, n: int, fs: float, band=None, *, re
     the power gain ``|H(f)|^2`` of the same Butterworth SOS filter that ``sosfiltfilt``
     applies forward and backward (:func:`syncstats.prep.bandpass_gain`), and the analytic
     signal keeps twice the positive frequencies, as ``scipy.signal.hilbert`` does; one
-    inverse complex FFT of length n follows. The filter is circular here: within the
-    filter's memory of the record's ends the result differs from the padded
-    ``sosfiltfilt``, elsewhere it agrees to rounding (tests/unit/test_speed_paths.py).
+    inverse complex FFT of length n follows. The filter is circular here: near the
+    record's ends the result differs from the padded ``sosfiltfilt`` (tolerances in
+    tests/unit/test_speed_paths.py), elsewhere it agrees closely.
 
     Parameters
     ----------
@@ -123,13 +128,13 @@ def analytic_from_spectrum(spec: np.ndarray, n: int, fs: float, band=None, *, re
     -------
     ndarray, shape (..., n), complex128
     """
-    proj, gain, ramp_g = _spectral_kernel(int(n), float(fs), None if band is None else tuple(map(float, band)))
-    k = n // 2 + 1
+    proj, gain, ramp_g, lo, hi = _spectral_kernel(int(n), float(fs),
+                                                  None if band is None else tuple(map(float, band)))
     z = np.zeros(spec.shape[:-1] + (n,), dtype=np.complex128)
-    np.multiply(spec, gain, out=z[..., :k])
+    np.multiply(spec[..., lo:hi], gain, out=z[..., lo:hi])
     if remove_trend:
         slope = (spec @ proj).real
-        z[..., :k] -= slope[..., None] * ramp_g
+        z[..., lo:hi] -= slope[..., None] * ramp_g
     elif band is None:
         z[..., 0] = spec[..., 0]  # hilbert keeps the mean
     return spfft.ifft(z, axis=-1, overwrite_x=True)

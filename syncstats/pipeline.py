@@ -106,13 +106,18 @@ def _top_freq(inputs, specs) -> float:
 
 
 def _decimated(inputs, q: int):
-    """The same inputs on the grid t[::q] (signals anti-alias filtered, phases subsampled)."""
+    """The same inputs on the grid t[::q] (signals anti-alias filtered, phases subsampled),
+    cut at the end to the longest length whose FFT is fast (``scipy.fft.prev_fast_len``:
+    a length with a large prime factor makes every FFT of every surrogate several times
+    slower; the cut is a few samples, under 1 % of the record beyond a few hundred)."""
+    m = inputs.t[::q].size
+    m = max(spfft.prev_fast_len(m, real=True), 1)
     return replace(
         inputs,
         fs=inputs.fs / q,
-        t=inputs.t[::q].copy(),
-        raw={n: decimate(x, q) for n, x in inputs.raw.items()},
-        user_phases={n: np.ascontiguousarray(p[..., ::q]) for n, p in inputs.user_phases.items()},
+        t=inputs.t[::q][:m].copy(),
+        raw={n: np.ascontiguousarray(decimate(x, q)[..., :m]) for n, x in inputs.raw.items()},
+        user_phases={n: np.ascontiguousarray(p[..., ::q][..., :m]) for n, p in inputs.user_phases.items()},
     )
 
 
@@ -168,11 +173,14 @@ class Pipeline:
                 if q < 1 or q != decimate:
                     raise SyncstatsInputError(f"decimate must be True, False or a positive integer factor, got {decimate!r}.")
             if q > 1:
+                n_before = inputs.t.size
                 inputs = _decimated(inputs, q)
                 fs = inputs.fs
+                cut = (n_before - 1) // q + 1 - inputs.t.size
                 notes.append(f"analysed at {fs:.6g} Hz (recorded {recorded_fs:.6g} Hz, every {q}th sample after a "
                              f"zero-phase anti-alias filter; at least {RATE_PER_TOP_FREQ:g} x the highest frequency "
-                             "of interest)")
+                             "of interest)" + (f"; the last {cut / fs:.3g} s were left out so that the FFT length "
+                                               "is fast" if cut else ""))
         proto = bool(protophase_correction)
         full, amp_full = {}, {}
         for n in inputs.names:
