@@ -7,18 +7,21 @@ Time is the last axis; functions broadcast over leading axes (surrogate batches)
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 from scipy import fft as spfft
 from scipy import signal as sps
 
 from ._errors import SyncstatsInputError
-from .prep import bandpass, detrend, spectral_peak
+from .prep import bandpass, bandpass_gain, detrend, spectral_peak
 
 __all__ = [
     "PhaseSpec",
     "SignalDiagnostics",
     "analytic_phase",
+    "analytic_from_spectrum",
+    "phase_from_spectrum",
     "wavelet_phase",
     "event_phase",
     "protophase_to_phase",
@@ -59,6 +62,92 @@ def analytic_phase(x: np.ndarray, fs: float, band=None, *, remove_trend: bool = 
         s = bandpass(s, fs, band)
     z = sps.hilbert(s, axis=-1)
     return np.unwrap(np.angle(z), axis=-1), np.abs(z)
+
+
+@lru_cache(maxsize=32)
+def _spectral_kernel(n: int, fs: float, band):
+    """(slope projector, gain, ramp spectrum x gain, first and end live bin) for
+    :func:`analytic_from_spectrum`.
+
+    ``slope = Re(X · proj)`` is the least-squares slope of the signal whose rfft is X
+    (Parseval: sum_t x_t c_t = (1/n) sum_k w_k Re(X_k conj(C_k)), w = 1 at DC and at the
+    Nyquist bin of an even n, 2 elsewhere; c = centred time); ``gain`` combines the
+    band-pass power gain |H|^2 with the analytic-signal weights of
+    ``scipy.signal.hilbert`` (1 at DC and Nyquist, 2 for 0 < k < n/2, 0 for negative
+    frequencies), and ``ramp`` is the rfft of c times ``gain``.
+    """
+    k = n // 2 + 1
+    tc = np.arange(n, dtype=float) - (n - 1) / 2.0
+    ramp = spfft.rfft(tc)
+    w = np.full(k, 2.0)
+    w[0] = 1.0
+    if n % 2 == 0:
+        w[-1] = 1.0
+    denom = float(tc @ tc) or 1.0
+    proj = w * np.conj(ramp) / (n * denom)
+    gain = w.copy()  # the analytic-signal weights happen to equal the Parseval weights
+    if band is not None:
+        gain *= bandpass_gain(spfft.rfftfreq(n, d=1.0 / fs), fs, band)
+    gain[0] = 0.0  # the mean is removed with the trend
+    # bins where the gain is below 1e-12 of its peak are treated as zero (a band-pass
+    # keeps a small part of the axis: only those bins are touched per surrogate)
+    live = np.flatnonzero(gain > 1e-12 * gain.max()) if gain.max() > 0 else np.arange(0)
+    lo, hi = (int(live[0]), int(live[-1]) + 1) if live.size else (0, 0)
+    ramp_g = (ramp * gain)[lo:hi]
+    gain = gain[lo:hi]
+    for a in (proj, gain, ramp_g):
+        a.setflags(write=False)
+    return proj, gain, ramp_g, lo, hi
+
+
+def analytic_from_spectrum(spec: np.ndarray, n: int, fs: float, band=None, *, remove_trend: bool = True) -> np.ndarray:
+    """Analytic signal of the detrended, zero-phase band-passed signal, from its rfft.
+
+    The frequency-domain form of :func:`analytic_phase`: the least-squares line is removed
+    from the spectrum (its slope is a linear functional of the spectrum), the band-pass is
+    the power gain ``|H(f)|^2`` of the same Butterworth SOS filter that ``sosfiltfilt``
+    applies forward and backward (:func:`syncstats.prep.bandpass_gain`), and the analytic
+    signal keeps twice the positive frequencies, as ``scipy.signal.hilbert`` does; one
+    inverse complex FFT of length n follows. The filter is circular here: near the
+    record's ends the result differs from the padded ``sosfiltfilt`` (tolerances in
+    tests/unit/test_speed_paths.py), elsewhere it agrees closely.
+
+    Parameters
+    ----------
+    spec : ndarray, shape (..., n // 2 + 1), complex
+        ``scipy.fft.rfft(x)`` of the raw signal x of length n.
+    n : int
+        Length of x.
+    fs : float
+        Sampling rate, Hz.
+    band : (float, float) or None
+        Pass band in Hz (None: no band-pass).
+    remove_trend : bool, default True
+
+    Returns
+    -------
+    ndarray, shape (..., n), complex128
+    """
+    proj, gain, ramp_g, lo, hi = _spectral_kernel(int(n), float(fs),
+                                                  None if band is None else tuple(map(float, band)))
+    z = np.zeros(spec.shape[:-1] + (n,), dtype=np.complex128)
+    np.multiply(spec[..., lo:hi], gain, out=z[..., lo:hi])
+    if remove_trend:
+        slope = (spec @ proj).real
+        z[..., lo:hi] -= slope[..., None] * ramp_g
+    elif band is None:
+        z[..., 0] = spec[..., 0]  # hilbert keeps the mean
+    return spfft.ifft(z, axis=-1, overwrite_x=True)
+
+
+def phase_from_spectrum(spec: np.ndarray, n: int, fs: float, spec_phase: "PhaseSpec") -> np.ndarray:
+    """Unwrapped phase of a signal given as its rfft, through a spectral Hilbert :class:`PhaseSpec`
+    (what the pipeline does to phase-randomised surrogates without leaving the frequency domain)."""
+    z = analytic_from_spectrum(spec, n, fs, spec_phase.band)
+    ph = np.unwrap(np.angle(z), axis=-1)
+    if spec_phase.protophase_correction:
+        ph = protophase_to_phase(ph, spec_phase.n_harmonics)
+    return ph
 
 
 def wavelet_phase(x: np.ndarray, fs: float, freq: float, *, omega0: float = 6.0):
@@ -141,11 +230,18 @@ class PhaseSpec:
     freq: float | None = None
     protophase_correction: bool = False
     n_harmonics: int = 10
+    #: Hilbert only: band-pass and analytic signal in the frequency domain (circular
+    #: filter with sosfiltfilt's gain |H|^2; see :func:`analytic_from_spectrum`)
+    spectral: bool = False
 
 
 def estimate_phase(x: np.ndarray, fs: float, spec: PhaseSpec) -> tuple[np.ndarray, np.ndarray]:
     """Apply a :class:`PhaseSpec` to ``x`` of shape (..., N) -> (phase, amplitude)."""
-    if spec.method == "hilbert":
+    if spec.method == "hilbert" and spec.spectral:
+        x = np.asarray(x, dtype=float)
+        z = analytic_from_spectrum(spfft.rfft(x, axis=-1), x.shape[-1], fs, spec.band)
+        ph, amp = np.unwrap(np.angle(z), axis=-1), np.abs(z)
+    elif spec.method == "hilbert":
         ph, amp = analytic_phase(x, fs, spec.band)
     elif spec.method == "wavelet":
         ph, amp = wavelet_phase(x, fs, spec.freq)

@@ -14,19 +14,33 @@ the span) into phases through exactly the same steps:
 * events: linear event phase on the grid -> optional protophase correction -> span;
 * phases given by the user: taken as given -> span.
 
+Two options make the same steps cheaper (both fixed on the data, used for data and
+surrogates alike; see docs/performance.md):
+
+* ``decimate``: every continuous signal is low-passed (zero-phase polyphase FIR) and
+  kept at one common integer factor q, so that the analysis rate ``fs / q`` stays at
+  least :data:`syncstats.prep.RATE_PER_TOP_FREQ` times the highest frequency any rhythm
+  needs (upper band edge; wavelet frequency x 1.5; event or phase rate). Event phases
+  are evaluated on the coarser grid, user phases are subsampled. Surrogates are then
+  made from the decimated signals.
+* ``spectral_filter``: the Hilbert path runs in the frequency domain (detrend,
+  band-pass gain |H|^2, analytic signal; one inverse FFT), and phase-randomised
+  surrogates never leave it (:meth:`Pipeline.phases` with ``spectra=``).
+
 Phase-level surrogates (time shifts, trial re-pairing) are made from the span phases and
 handed back as such.
 """
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
+from scipy import fft as spfft
 
 from ._errors import SyncstatsInputError
-from .phase import PhaseSpec, diagnose, estimate_phase, event_phase, protophase_to_phase
-from .prep import _check_band, auto_band, spectral_peak
+from .phase import PhaseSpec, diagnose, estimate_phase, event_phase, phase_from_spectrum, protophase_to_phase
+from .prep import RATE_PER_TOP_FREQ, _check_band, auto_band, decimate, decimation_factor, spectral_peak
 
 __all__ = ["Inputs", "Pipeline"]
 
@@ -47,7 +61,7 @@ class Inputs:
     sources: tuple[str, ...] = ()
 
 
-def _fix_spec(name, x, fs, method, band, protophase):
+def _fix_spec(name, x, fs, method, band, protophase, spectral=False):
     if method not in ("hilbert", "wavelet"):
         raise SyncstatsInputError(f"phase_method for '{name}' must be 'hilbert' or 'wavelet', got {method!r}.")
     x0 = x.mean(axis=0)
@@ -64,7 +78,47 @@ def _fix_spec(name, x, fs, method, band, protophase):
     if method == "wavelet":
         freq = float(np.sqrt(band[0] * band[1])) if band is not None else spectral_peak(x0, fs)[0]
         band = None
-    return PhaseSpec(method=method, band=band, freq=freq, protophase_correction=bool(protophase))
+    return PhaseSpec(method=method, band=band, freq=freq, protophase_correction=bool(protophase),
+                     spectral=bool(spectral) and method == "hilbert")
+
+
+def _top_freq(inputs, specs) -> float:
+    """Highest frequency (Hz) any rhythm of the analysis needs; inf when one is unbounded
+    (a Hilbert phase without a band keeps the whole spectrum)."""
+    top = 0.0
+    for sp in specs.values():
+        if sp.method == "wavelet":
+            top = max(top, 1.5 * sp.freq)  # the Morlet (omega0 = 6) response is negligible beyond
+        elif sp.band is not None:
+            top = max(top, sp.band[1])
+        else:
+            return float("inf")
+    for ev in inputs.events.values():
+        ev = np.asarray(ev, dtype=float)
+        if ev.size > 1:
+            top = max(top, 2.0 * (ev.size - 1) / (ev[-1] - ev[0]))  # twice the mean rate: rate changes
+    for ph in inputs.user_phases.values():
+        d = np.diff(ph, axis=-1)
+        d = d[np.isfinite(d)]
+        if d.size:
+            top = max(top, 2.0 * float(np.mean(np.abs(d))) * inputs.fs / (2 * np.pi))
+    return top
+
+
+def _decimated(inputs, q: int):
+    """The same inputs on the grid t[::q] (signals anti-alias filtered, phases subsampled),
+    cut at the end to the longest length whose FFT is fast (``scipy.fft.prev_fast_len``:
+    a length with a large prime factor makes every FFT of every surrogate several times
+    slower; the cut is a few samples, under 1 % of the record beyond a few hundred)."""
+    m = inputs.t[::q].size
+    m = max(spfft.prev_fast_len(m, real=True), 1)
+    return replace(
+        inputs,
+        fs=inputs.fs / q,
+        t=inputs.t[::q][:m].copy(),
+        raw={n: np.ascontiguousarray(decimate(x, q)[..., :m]) for n, x in inputs.raw.items()},
+        user_phases={n: np.ascontiguousarray(p[..., ::q][..., :m]) for n, p in inputs.user_phases.items()},
+    )
 
 
 @dataclass(frozen=True)
@@ -83,12 +137,21 @@ class Pipeline:
     edge_s: float
     data: Mapping[str, np.ndarray]
     amplitude: Mapping[str, np.ndarray]
+    decimation: int = 1  # the grid is the recorded one taken every `decimation` samples
+    recorded_fs: float | None = None  # rate of the inputs as given
+    notes: tuple[str, ...] = ()
 
     # ------------------------------------------------------------------ construction
     @classmethod
     def fix(cls, inputs: Inputs, *, bands="auto", phase_method="hilbert", protophase_correction=False,
-            edge_s=None) -> "Pipeline":
-        """Fix phase specs and the span on the data and compute the data's phases."""
+            edge_s=None, decimate=False, spectral_filter=False) -> "Pipeline":
+        """Fix phase specs and the span on the data and compute the data's phases.
+
+        ``decimate`` (bool, or an int factor to force one) moves every rhythm to the
+        common grid ``t[::q]`` first; ``spectral_filter`` runs the Hilbert path in the
+        frequency domain. Both change numbers only within the tolerances shown in
+        tests/unit/test_speed_paths.py.
+        """
         fs = inputs.fs
         unknown = sorted(set(bands) - set(inputs.raw)) if isinstance(bands, Mapping) else []
         if unknown:
@@ -100,7 +163,24 @@ class Pipeline:
         for n, x in inputs.raw.items():
             method = phase_method.get(n, "hilbert") if isinstance(phase_method, Mapping) else phase_method
             band = bands.get(n, "auto") if isinstance(bands, Mapping) else bands
-            specs[n] = _fix_spec(n, x, fs, method, band, protophase_correction)
+            specs[n] = _fix_spec(n, x, fs, method, band, protophase_correction, spectral_filter)
+        recorded_fs, q, notes = fs, 1, []
+        if decimate is not False and decimate is not None and inputs.raw:
+            if decimate is True:
+                q = decimation_factor(fs, _top_freq(inputs, specs))
+            else:
+                q = int(decimate)
+                if q < 1 or q != decimate:
+                    raise SyncstatsInputError(f"decimate must be True, False or a positive integer factor, got {decimate!r}.")
+            if q > 1:
+                n_before = inputs.t.size
+                inputs = _decimated(inputs, q)
+                fs = inputs.fs
+                cut = (n_before - 1) // q + 1 - inputs.t.size
+                notes.append(f"analysed at {fs:.6g} Hz (recorded {recorded_fs:.6g} Hz, every {q}th sample after a "
+                             f"zero-phase anti-alias filter; at least {RATE_PER_TOP_FREQ:g} x the highest frequency "
+                             "of interest)" + (f"; the last {cut / fs:.3g} s were left out so that the FFT length "
+                                               "is fast" if cut else ""))
         proto = bool(protophase_correction)
         full, amp_full = {}, {}
         for n in inputs.names:
@@ -135,7 +215,7 @@ class Pipeline:
             i0, i1 = max(i0, e_samp), min(i1, n_samp - e_samp)
         data = {n: full[n][..., i0:i1] for n in inputs.names}
         amplitude = {n: a[i0:i1] for n, a in amp_full.items()}
-        return cls(inputs, specs, proto, i0, i1, edge, data, amplitude)
+        return cls(inputs, specs, proto, i0, i1, edge, data, amplitude, q, recorded_fs, tuple(notes))
 
     # ------------------------------------------------------------------ the one path
     @property
@@ -153,12 +233,14 @@ class Pipeline:
     def span(self, ph: np.ndarray) -> np.ndarray:
         return ph[..., self.i0:self.i1]
 
-    def phases(self, *, raw=None, events=None, phases=None, batch: int | None = None) -> dict:
+    def phases(self, *, raw=None, events=None, phases=None, spectra=None, batch: int | None = None) -> dict:
         """Phases on the span for replaced inputs; every other rhythm keeps the data's.
 
         Parameters
         ----------
         raw : mapping name -> (B, T, N) raw continuous surrogates
+        spectra : mapping name -> (B, T, N // 2 + 1) rfft spectra of raw continuous
+            surrogates (signals whose spec is ``spectral`` only)
         events : mapping name -> list of B event-time arrays
         phases : mapping name -> (B, T, n) phases already on the span
         batch : int, optional
@@ -168,10 +250,17 @@ class Pipeline:
         -------
         dict name -> (B, T, n) (or (T, n) with nothing replaced and no ``batch``)
         """
-        raw, events, phases = raw or {}, events or {}, phases or {}
+        raw, events, phases, spectra = raw or {}, events or {}, phases or {}, spectra or {}
         out = {}
+        n_grid = self.inputs.t.size
+        for n, sp in spectra.items():
+            out[n] = self.span(phase_from_spectrum(sp, n_grid, self.inputs.fs, self.specs[n]))
         for n, x in raw.items():
-            out[n] = self.span(estimate_phase(x, self.inputs.fs, self.specs[n])[0])
+            if self.specs[n].spectral:  # no amplitude needed: skip it
+                out[n] = self.span(phase_from_spectrum(spfft.rfft(x, axis=-1), x.shape[-1], self.inputs.fs,
+                                                       self.specs[n]))
+            else:
+                out[n] = self.span(estimate_phase(x, self.inputs.fs, self.specs[n])[0])
         for n, evs in events.items():
             out[n] = self.span(_event_phases(evs, self.inputs.t, self.protophase_correction))
         out.update(phases)

@@ -10,7 +10,7 @@ from scipy import signal as sps
 
 from ._errors import SyncstatsInputError
 
-__all__ = ["detrend", "bandpass", "spectral_peak", "auto_band"]
+__all__ = ["detrend", "bandpass", "bandpass_gain", "decimation_factor", "decimate", "spectral_peak", "auto_band"]
 
 
 def detrend(x: np.ndarray) -> np.ndarray:
@@ -65,6 +65,52 @@ def bandpass(x: np.ndarray, fs: float, band, *, order: int = 4) -> np.ndarray:
     lo, hi = _check_band(band, fs)
     sos = sps.butter(order, [lo, hi], btype="bandpass", fs=fs, output="sos")
     return sps.sosfiltfilt(sos, np.asarray(x, dtype=float), axis=-1)
+
+
+def bandpass_gain(freqs: np.ndarray, fs: float, band, *, order: int = 4) -> np.ndarray:
+    """Power gain ``|H(f)|^2`` of the zero-phase band-pass of :func:`bandpass` at ``freqs`` (Hz).
+
+    ``sosfiltfilt`` runs the same SOS filter forward and backward, so away from the
+    record's ends its response is ``H(f)·conj(H(f)) = |H(f)|^2``, real and without phase
+    shift. Multiplying a spectrum by this gain is the frequency-domain (circular) form of
+    the same filter; it differs from ``sosfiltfilt`` only within the filter's memory of
+    the record's ends (padding there differs), which the pipeline drops.
+    """
+    lo, hi = _check_band(band, fs)
+    sos = sps.butter(order, [lo, hi], btype="bandpass", fs=fs, output="sos")
+    _, h = sps.sosfreqz(sos, worN=np.asarray(freqs, dtype=float), fs=fs)
+    return (h.real * h.real + h.imag * h.imag).astype(float)
+
+
+#: an analysis rate at least this many times a rhythm's highest frequency of interest
+RATE_PER_TOP_FREQ = 10.0
+
+
+def decimation_factor(fs: float, top_freq_hz: float, *, per_top: float = RATE_PER_TOP_FREQ) -> int:
+    """Largest integer q with ``fs / q >= per_top * top_freq_hz`` (at least 1).
+
+    ``top_freq_hz`` is the highest frequency any rhythm of the analysis needs (upper pass
+    band edge, wavelet frequency band, event rate); ``per_top`` = 10 keeps the pass band
+    below a fifth of the new Nyquist frequency, far from the anti-alias filter's edge.
+    """
+    if not np.isfinite(top_freq_hz) or top_freq_hz <= 0:
+        return 1
+    return max(1, int(np.floor(fs / (per_top * top_freq_hz) + 1e-9)))
+
+
+def decimate(x: np.ndarray, q: int) -> np.ndarray:
+    """Anti-alias filter and keep every ``q``-th sample (last axis), zero phase.
+
+    ``scipy.signal.resample_poly(x, 1, q, padtype="line")``: a linear-phase Kaiser FIR
+    low-pass at the new Nyquist frequency applied symmetrically (no delay), polyphase,
+    with the record extended by its least-squares line at both ends so that a trend or
+    offset makes no edge transient. Output sample j sits at input sample j·q, so the new
+    grid is ``t[::q]``.
+    """
+    x = np.asarray(x, dtype=float)
+    if q == 1:
+        return x.copy()
+    return sps.resample_poly(x, 1, int(q), axis=-1, padtype="line")
 
 
 def spectral_peak(x: np.ndarray, fs: float, *, fmin: float | None = None) -> tuple[float, float]:

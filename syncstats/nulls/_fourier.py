@@ -116,6 +116,21 @@ def _randomised_phases(x, rngs, func: str, *, shared: bool) -> np.ndarray:
     return _phase_randomise(spec[None], _rotations(rngs, c, n, shared=shared), n)
 
 
+def spectra(x, rngs, *, shared: bool = False) -> np.ndarray:
+    """rfft spectra of the surrogates of :func:`fourier` (``shared=False``) or
+    :func:`multivariate_fourier` (``shared=True``), without the inverse FFT: (B, C, N//2 + 1).
+
+    ``irfft(spectra(x, rngs), n=N)`` equals ``fourier(x, rngs)`` exactly (same draws, same
+    arithmetic); the pipeline's spectral path (:func:`syncstats.phase.phase_from_spectrum`)
+    takes these directly, so a surrogate costs one inverse FFT in all.
+    """
+    func = "multivariate_fourier" if shared else "fourier"
+    x2, _ = _as_channels(x, func)
+    rngs = _check_rngs(rngs, func)
+    c, n = x2.shape
+    return sfft.rfft(x2, axis=-1, workers=-1)[None] * _rotations(rngs, c, n, shared=shared)
+
+
 def fourier(x, rngs) -> np.ndarray:
     """Phase-randomised (FT) surrogates, each channel randomised independently.
 
