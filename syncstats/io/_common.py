@@ -238,13 +238,21 @@ def _select(available: Sequence[str], wanted: Sequence[str] | None, path: Path,
     return list(wanted)
 
 
-def _unique_labels(labels: Iterable[str]) -> tuple[list[str], list[str]]:
-    """Make labels unique by appending " (2)", " (3)", ...; return labels and notes."""
+def _unique_labels(labels: Iterable[str | None]) -> tuple[list[str], list[str]]:
+    """Usable signal labels and notes on what was changed.
+
+    A missing or blank label (a WFDB signal without description, a blank EDF label)
+    becomes ``"signal k"`` (k = position from 1); a repeated label gets " (2)", " (3)", ...
+    """
     out: list[str] = []
     notes: list[str] = []
     seen: dict[str, int] = {}
-    for raw in labels:
-        label = raw.strip() or "signal"
+    unnamed: list[str] = []
+    for k, raw in enumerate(labels, start=1):
+        label = "" if raw is None else str(raw).strip()
+        blank = not label
+        if blank:
+            label = f"signal {k}"
         if label in seen:
             seen[label] += 1
             new = f"{label} ({seen[label]})"
@@ -257,6 +265,11 @@ def _unique_labels(labels: Iterable[str]) -> tuple[list[str], list[str]]:
         else:
             seen[label] = 1
         out.append(label)
+        if blank:
+            unnamed.append(label)
+    if unnamed:
+        notes.insert(0, f"{len(unnamed)} signal(s) have no label in the file; named by "
+                        f"position: {', '.join(map(repr, unnamed))}")
     return out, notes
 
 

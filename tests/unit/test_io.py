@@ -372,6 +372,22 @@ def test_wfdb_round_trip_against_wfdb_reader(tmp_path):
     assert np.max(np.abs(rec.signals["heart"] - w["heart"])) < 1e-3
 
 
+def test_wfdb_signals_without_description_are_named_by_position(tmp_path):
+    # The description at the end of a WFDB signal line is optional (wfdb reads it as
+    # None); found by tests/unit/test_io_fuzz.py, where it raised AttributeError.
+    _wfdb_record(tmp_path)
+    header = tmp_path / "rec.hea"
+    lines = header.read_text().splitlines()
+    header.write_text("\n".join([lines[0]] + [ln.rsplit(" ", 1)[0] for ln in lines[1:]]) + "\n")
+    assert wfdb.rdheader(str(tmp_path / "rec")).sig_name == [None, None]
+    ref = wfdb.rdrecord(str(tmp_path / "rec")).p_signal
+    rec = read_recording(header)
+    assert list(rec.signals) == ["signal 1", "signal 2"]
+    np.testing.assert_array_equal(rec.signals["signal 2"], ref[:, 1])
+    assert any("no label" in n and "'signal 1', 'signal 2'" in n for n in rec.notes)
+    assert list(read_recording(header, signals="signal 2").signals) == ["signal 2"]
+
+
 def test_wfdb_annotations_become_beat_events(tmp_path):
     _wfdb_record(tmp_path)
     wfdb.wrann("rec", "atr", np.array([50, 130, 130, 210, 290]),
