@@ -55,17 +55,18 @@ def _resample_factors(src: _Source, target: Fraction) -> dict[str, tuple[int, in
 
 
 def _cell_layout(src: _Source) -> tuple[Fraction, dict[str, int], int, np.ndarray]:
-    """Common grid rate g, samples per cell of each signal, number of cells, good-cell mask."""
+    """Common grid rate g, samples per cell of each signal, number of cells, good-cell mask.
+
+    Only whole cells count: samples after the last cell that every signal fills (less
+    than 1/g s) are not used, so all signals of a segment also end at the same instant.
+    """
     g = _fraction_gcd(src.rates.values())
     per_cell = {n: int(r / g) for n, r in src.rates.items()}
-    n_cells = min(-(-len(x) // per_cell[n]) for n, x in src.signals.items())
+    n_cells = min(len(x) // per_cell[n] for n, x in src.signals.items())
     good = np.ones(n_cells, dtype=bool)
     for n, x in src.signals.items():
         m = per_cell[n]
-        fin = np.ones(n_cells * m, dtype=bool)
-        k = min(len(x), n_cells * m)
-        fin[:k] = np.isfinite(x[:k])
-        good &= fin.reshape(n_cells, m).all(axis=1)
+        good &= np.isfinite(x[:n_cells * m]).reshape(n_cells, m).all(axis=1)
     return g, per_cell, n_cells, good
 
 
@@ -122,7 +123,6 @@ def _gap_error(src: _Source, g: Fraction, blocks, segs) -> SyncstatsInputError:
         onset = blocks[j][2]
         candidates.append((prev_end, f"all signals: there are no samples between "
                                      f"{prev_end:.6g} s and {onset:.6g} s (a break in the {src.break_source})"))
-    # Signals of unequal length (last cell partial) are not a gap; only real findings count.
     if not candidates:
         t = segs[0][2] if segs else 0.0
         candidates.append((t, f"the data are not continuous near {t:.6g} s"))
@@ -201,6 +201,13 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
                 "magnitude); rescale the signal, e.g. write it in another unit."
             )
     g, per_cell, n_cells, good = _cell_layout(src)
+    if n_cells == 0:
+        short = [n for n, x in src.signals.items() if len(x) < per_cell[n]]
+        raise SyncstatsInputError(
+            f"{src.kind} file '{src.path}': signal(s) {', '.join(map(repr, short))} end "
+            f"before the first step of the signals' common time grid ({float(1 / g):.6g} s); "
+            "leave them out with signals=[...]."
+        )
     segs, blocks = _segments(src, g, n_cells, good)
     whole = len(segs) == 1 and segs[0][:2] == (0, n_cells)
     notes = list(src.notes)
@@ -244,7 +251,7 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
         sigs = {}
         for n, x in src.signals.items():
             m = per_cell[n]
-            piece = x[a * m: min(b * m, len(x))]
+            piece = x[a * m: b * m]
             if target is not None and factors[n] != (1, 1):
                 from scipy.signal import resample_poly
 
