@@ -20,6 +20,7 @@ from syncstats._errors import SyncstatsInputError
 
 from ._events import _validate_event_times
 from ._recording import Recording
+from ._tabular import TIME_COLUMN_NAMES, TIME_COLUMN_NAMES_MS
 
 __all__ = ["write_events", "write_recording_csv"]
 
@@ -65,7 +66,10 @@ def write_recording_csv(recording: Recording, path: str | os.PathLike) -> Path:
     Parameters
     ----------
     recording : Recording
-        Needs at least one signal and ``fs``; all signals of equal length.
+        Needs at least one signal, ``fs`` and two samples; all signals of equal length.
+        Signal names must read back from a CSV header unchanged: no time-column name
+        (``time``, ``t``, ``ms``, ...), no blank name, no leading or trailing blank
+        space, no line break.
     path : str or path-like
         Target file; its folder must exist. Replaced atomically if present.
 
@@ -97,12 +101,19 @@ def write_recording_csv(recording: Recording, path: str | os.PathLike) -> Path:
             f"Recording {recording.name!r} has signals of different lengths ({lengths}); "
             "cut them to one length before writing."
         )
-    if TIME_COLUMN in recording.signals:
-        raise SyncstatsInputError(
-            f"Recording {recording.name!r} has a signal named {TIME_COLUMN!r}, the name of "
-            "the time column written; rename that signal."
-        )
+    for name in recording.signals:
+        problem = _unreadable_column_name(str(name))
+        if problem:
+            raise SyncstatsInputError(
+                f"Recording {recording.name!r}: the signal name {name!r} {problem}, so the "
+                "CSV file would not read back; rename that signal."
+            )
     n = next(iter(lengths.values()))
+    if n < 2:
+        raise SyncstatsInputError(
+            f"Recording {recording.name!r} has {n} sample(s), too few for the time column "
+            "of a CSV file to give the sampling rate; write at least two samples."
+        )
     columns = {TIME_COLUMN: np.arange(n) / float(recording.fs)}
     columns.update({name: np.asarray(x, dtype=float) for name, x in recording.signals.items()})
     frame = pd.DataFrame(columns)
@@ -110,6 +121,19 @@ def write_recording_csv(recording: Recording, path: str | os.PathLike) -> Path:
     with _atomic_text(target) as fh:
         frame.to_csv(fh, index=False, lineterminator="\n")
     return target
+
+
+def _unreadable_column_name(name: str) -> str | None:
+    """Why a signal name would not read back from a CSV header unchanged, or None."""
+    if name.strip().lower() in TIME_COLUMN_NAMES + TIME_COLUMN_NAMES_MS:
+        return "is one the reader takes for a time column"
+    if not name.strip() or name.startswith("Unnamed: "):
+        return "reads back as a column without a name"
+    if name != name.strip():
+        return "starts or ends with blank space, which the reader strips"
+    if "\n" in name or "\r" in name:
+        return "contains a line break"
+    return None
 
 
 def write_events(times, path: str | os.PathLike) -> Path:

@@ -575,6 +575,25 @@ def test_failed_write_leaves_old_file_and_no_temp(tmp_path, monkeypatch):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["keep.csv"]
 
 
+@pytest.mark.parametrize("signals, pattern", [
+    ({"time_s": [1.0, 2.0]}, r"'time_s' is one the reader takes for a time column"),
+    ({"a": [1.0, 2.0], "Time": [3.0, 4.0]}, r"'Time' is one the reader takes for a time column"),
+    ({"ms": [1.0, 2.0]}, r"'ms' is one the reader takes for a time column"),
+    ({"": [1.0, 2.0]}, r"'' reads back as a column without a name"),
+    ({"Unnamed: 1": [1.0, 2.0]}, r"'Unnamed: 1' reads back as a column without a name"),
+    ({" ecg": [1.0, 2.0]}, r"' ecg' starts or ends with blank space"),
+    ({"ecg\nII": [1.0, 2.0]}, r"'ecg\\nII' contains a line break"),
+    ({"ecg": [1.0]}, r"has 1 sample\(s\), too few"),
+])
+def test_write_recording_csv_refuses_what_would_not_read_back(tmp_path, signals, pattern):
+    # all but 'time_s' were written before, then failed to read back or came back renamed
+    rec = Recording(name="sim", signals={k: np.array(v) for k, v in signals.items()}, fs=10.0)
+    with pytest.raises(SyncstatsInputError, match=pattern) as e:
+        write_recording_csv(rec, tmp_path / "x.csv")
+    _one_sentence(str(e.value))
+    assert list(tmp_path.iterdir()) == []
+
+
 @pytest.mark.parametrize("bad", [[1.0, 0.5], [0.5, 0.5], [0.1, np.nan]])
 def test_write_events_rejects_bad_times(tmp_path, bad):
     with pytest.raises(SyncstatsInputError):

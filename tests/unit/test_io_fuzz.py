@@ -7,6 +7,8 @@ What must hold for any input:
   complete time step of the input once, never cross a break in the data, and are at least
   ``min_segment_s`` long when the file was split;
 * a table with missing rows or empty cells splits into exactly the runs of complete rows;
+* a Recording that ``write_recording_csv`` accepts reads back with the same names, values
+  and rate (whatever the signal names), and a refused one leaves no file behind;
 * any text or damaged binary file either reads into well-formed Recordings or raises
   ``SyncstatsInputError`` with one sentence naming the file, and is never modified.
 
@@ -26,7 +28,8 @@ from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from syncstats._errors import SyncstatsInputError
-from syncstats.io import read_events, read_segments
+from syncstats.io import (Recording, read_events, read_recording, read_segments,
+                          write_recording_csv)
 from syncstats.io._common import _Block, _Source
 from syncstats.io._grid import _finish
 
@@ -180,6 +183,28 @@ def test_table_segments_are_the_runs_of_complete_rows(tmp_path_factory, table):
         assert rec.name == ("g" if whole else f"g#{runs.index((a, b)) + 1}")
         for j, row in enumerate(data):
             np.testing.assert_array_equal(rec.signals[f"x{j}"], row[a:b])
+
+
+# ----------------------------------------------------------------------------- CSV writer
+
+@FILE_FUZZ
+@given(names=st.lists(st.text(st.characters(exclude_categories=("Cs",)), max_size=6),
+                      min_size=1, max_size=3, unique=True),
+       n=st.integers(1, 5), fs=st.sampled_from([1 / 3, 1.0, 7.5, 250.0, 1e6]), data=st.data())
+def test_written_csv_reads_back_exactly_or_is_refused(tmp_path_factory, names, n, fs, data):
+    values = st.lists(st.floats(allow_nan=False, allow_infinity=False), min_size=n, max_size=n)
+    signals = {k: np.array(data.draw(values, label=f"signal {k!r}")) for k in names}
+    folder = tmp_path_factory.mktemp("written")
+    try:
+        path = write_recording_csv(Recording(name="sim", signals=signals, fs=fs), folder / "w.csv")
+    except SyncstatsInputError as err:
+        assert "\n" not in str(err) and list(folder.iterdir()) == []
+        return
+    back = read_recording(path)
+    assert list(back.signals) == names
+    for k in names:
+        np.testing.assert_array_equal(back.signals[k], signals[k])
+    assert back.fs == pytest.approx(fs, rel=1e-12)
 
 
 # ----------------------------------------------------------------------------- any file
