@@ -789,11 +789,10 @@ def _hedges_one_sample(cohen_d, n):
 
 
 def _circ_mean(a):
-    from scipy import stats
-
+    """Circular mean in (-pi, pi] (angle of the mean unit phasor, as scipy.stats.circmean)."""
     a = np.asarray(a, float)
     a = a[np.isfinite(a)]
-    return float(stats.circmean(a, high=np.pi, low=-np.pi)) if len(a) else float("nan")
+    return float(np.angle(np.mean(np.exp(1j * a)))) if len(a) else float("nan")
 
 
 def _subject_values(table, summary):
@@ -805,7 +804,7 @@ def _subject_values(table, summary):
         if not len(y):
             continue
         rows.append(dict(zip(keys, k)) | {"value": float(np.mean(y)), "n_recordings": int(len(y)),
-                                          "preferred_phase": _circ_mean(g["preferred_phase"]),
+                                          "preferred_phase": _circ_mean(g["preferred_phase"].to_numpy(float)),
                                           "recording_values": tuple(float(v) for v in y)})
     return pd.DataFrame(rows, columns=keys + ["value", "n_recordings", "preferred_phase", "recording_values"])
 
@@ -853,46 +852,48 @@ def second_level_tests(table, *, summary="effect", correction="fdr_bh", alpha=0.
     groups = list(dict.fromkeys(table["group"]))
     conds = list(dict.fromkeys(table["condition"]))
     group_sets = [(g, [g]) for g in groups] + ([(ALL_GROUPS, groups)] if len(groups) > 1 else [])
+    if ALL_GROUPS in groups:
+        raise SyncstatsInputError(f"group name '{ALL_GROUPS}' is reserved for pooled rows; rename that group.")
     rows = []
     for unit, u in subj.groupby(_UNIT, sort=False, dropna=False):
         ukey = dict(zip(_UNIT, unit))
-        rec_u = table
-        for c in _UNIT:
-            rec_u = rec_u[rec_u[c] == ukey[c]]
+        grp, cnd = u["group"].to_numpy(object), u["condition"].to_numpy(object)
+        sub, val = u["subject"].to_numpy(object), u["value"].to_numpy(float)
+        nrec, phs = u["n_recordings"].to_numpy(int), u["preferred_phase"].to_numpy(float)
+        in_group = {gname: np.isin(grp, gl) for gname, gl in group_sets}
+        in_cond = {c: cnd == c for c in conds}
         # one-sample and phase consistency per cell
-        for gname, gl in group_sets:
+        for gname, _ in group_sets:
             for cond in conds:
-                cell = u[u["group"].isin(gl) & (u["condition"] == cond)]
-                if not len(cell):
+                m = in_group[gname] & in_cond[cond]
+                if not m.any():
                     continue
-                y = cell["value"].to_numpy(float)
-                nrec = int(cell["n_recordings"].sum())
+                y = val[m]
                 common = ukey | {"summary": summary, "group": gname, "condition": cond, "n_subjects": len(y),
-                                 "n_recordings": nrec}
+                                 "n_recordings": int(nrec[m].sum())}
                 if summary != "value":
-                    several = bool((cell["n_recordings"] > 1).any())
-                    if repeated_measures == "mixed_model" and several:
-                        rows.append(common | _mixed_one_sample(cell, ci_level))
+                    if repeated_measures == "mixed_model" and bool((nrec[m] > 1).any()):
+                        rows.append(common | _mixed_one_sample(u[m], ci_level))
                     else:
                         rows.append(common | _one_sample_t(y, ci_level))
                     rows.append(common | _one_sample_rank(y, ci_level))
-                rows.append(common | _rayleigh(cell["preferred_phase"].to_numpy(float)))
-        # paired between conditions
-        for gname, gl in group_sets:
+                rows.append(common | _rayleigh(phs[m]))
+        # paired between conditions (subjects with both conditions)
+        for gname, _ in group_sets:
             for a in range(len(conds)):
                 for b in range(a + 1, len(conds)):
                     ca, cb = conds[a], conds[b]
-                    sa = u[u["group"].isin(gl) & (u["condition"] == ca)].set_index("subject")
-                    sb = u[u["group"].isin(gl) & (u["condition"] == cb)].set_index("subject")
-                    both = [s for s in sa.index if s in sb.index]
-                    if not len(sa) or not len(sb):
+                    ma, mb = in_group[gname] & in_cond[ca], in_group[gname] & in_cond[cb]
+                    if not ma.any() or not mb.any():
                         continue
-                    xa, xb = sa.loc[both, "value"].to_numpy(float), sb.loc[both, "value"].to_numpy(float)
+                    ia = dict(zip(sub[ma], np.flatnonzero(ma)))
+                    ib = dict(zip(sub[mb], np.flatnonzero(mb)))
+                    both = [s for s in ia if s in ib]
+                    ja, jb = [ia[s] for s in both], [ib[s] for s in both]
+                    xa, xb = val[ja], val[jb]
                     common = ukey | {"summary": summary, "group": gname, "condition": f"{cb} vs {ca}",
                                      "contrast": f"{cb} − {ca}", "n_subjects": len(both), "n_subjects_a": len(both),
-                                     "n_subjects_b": len(both),
-                                     "n_recordings": int(sa.loc[both, "n_recordings"].sum()
-                                                         + sb.loc[both, "n_recordings"].sum())}
+                                     "n_subjects_b": len(both), "n_recordings": int(nrec[ja].sum() + nrec[jb].sum())}
                     rows.append(common | _paired_t(xb, xa, ci_level))
                     rows.append(common | _paired_rank(xb, xa, ci_level))
         # between groups within a condition
@@ -900,17 +901,15 @@ def second_level_tests(table, *, summary="effect", correction="fdr_bh", alpha=0.
             for a in range(len(groups)):
                 for b in range(a + 1, len(groups)):
                     ga, gb = groups[a], groups[b]
-                    ya = u[(u["group"] == ga) & (u["condition"] == cond)]
-                    yb = u[(u["group"] == gb) & (u["condition"] == cond)]
-                    if not len(ya) or not len(yb):
+                    ma, mb = in_group[ga] & in_cond[cond], in_group[gb] & in_cond[cond]
+                    if not ma.any() or not mb.any():
                         continue
                     common = ukey | {"summary": summary, "group": f"{gb} vs {ga}", "condition": cond,
-                                     "contrast": f"{gb} − {ga}", "n_subjects": len(ya) + len(yb),
-                                     "n_subjects_a": len(ya), "n_subjects_b": len(yb),
-                                     "n_recordings": int(ya["n_recordings"].sum() + yb["n_recordings"].sum())}
-                    xa, xb = ya["value"].to_numpy(float), yb["value"].to_numpy(float)
-                    rows.append(common | _welch(xb, xa, ci_level))
-                    rows.append(common | _mwu(xb, xa, ci_level))
+                                     "contrast": f"{gb} − {ga}", "n_subjects": int(ma.sum() + mb.sum()),
+                                     "n_subjects_a": int(ma.sum()), "n_subjects_b": int(mb.sum()),
+                                     "n_recordings": int(nrec[ma].sum() + nrec[mb].sum())}
+                    rows.append(common | _welch(val[mb], val[ma], ci_level))
+                    rows.append(common | _mwu(val[mb], val[ma], ci_level))
     out = pd.DataFrame(rows, columns=[c for c in SECOND_LEVEL_COLUMNS if c not in
                                       ("p_adjusted", "correction", "family", "significant")] + ["boot_data"])
     out = _bootstrap_rows(out, base, n_bootstrap, ci_level)
@@ -920,7 +919,7 @@ def second_level_tests(table, *, summary="effect", correction="fdr_bh", alpha=0.
         out[c] = out[c].astype("Int64")
     for c in ("signal_a", "signal_b", "ratio", "measure", "summary", "test", "approach", "method", "group",
               "condition", "contrast", "aggregation", "ci_method", "effect_size_kind", "correction", "family", "note"):
-        out[c] = out[c].fillna("").astype(str)
+        out[c] = out[c].astype(object).where(out[c].notna(), "").astype(str)
     out["significant"] = out["significant"].astype("boolean")
     return out.reset_index(drop=True), subj.drop(columns=["recording_values"]), _descriptives(subj)
 
