@@ -54,12 +54,21 @@ def _is_inside(path: Path, folder: Path) -> bool:
 
 
 def _ident(path: Path):
-    """(device, inode) of ``path`` itself (links not followed), or None if nothing is there."""
+    """(device, inode, change time) of ``path`` itself (links not followed), or None if
+    nothing is there; a folder removed and made again differs even if its inode is reused."""
     try:
         st = os.lstat(path)
     except OSError:
         return None
-    return st.st_dev, st.st_ino
+    return st.st_dev, st.st_ino, st.st_ctime_ns
+
+
+def _same_file(path: Path, fd: int) -> bool:
+    try:
+        a, b = os.lstat(path), os.fstat(fd)
+    except OSError:
+        return False
+    return (a.st_dev, a.st_ino) == (b.st_dev, b.st_ino)
 
 
 def _pid_alive(pid: int) -> bool:
@@ -113,6 +122,9 @@ class OutputFolder:
         self._done = False
         try:
             self._reserve([os.fspath(p) for p in protected if p])
+        except OSError as err:  # e.g. a name too long even to look up
+            self.release()
+            raise self._os_error(err, self.path.parent) from None
         except BaseException:
             self.release()
             raise
@@ -172,8 +184,8 @@ class OutputFolder:
                                  "choose a new or empty folder for --out, or add --overwrite to replace it"
                                  if self.cli else "choose a new or empty folder, or pass overwrite=True to "
                                  "replace it")
-            self.check_protected(protected)
             self._replace = True
+            self.check_protected(protected)
         self._ident = _ident(out)
 
     def check_protected(self, paths: Iterable) -> None:
@@ -224,7 +236,7 @@ class OutputFolder:
                 os.close(fd)
                 raise self._fail(f"is being written by another syncstats run (process {holder})",
                                  "wait for it to finish or " + self._choose()) from None
-            if _ident(path) == (os.fstat(fd).st_dev, os.fstat(fd).st_ino):
+            if _same_file(path, fd):
                 os.ftruncate(fd, 0)
                 os.write(fd, f"{os.getpid()}\n".encode())
                 self._lock = fd
@@ -324,7 +336,7 @@ class OutputFolder:
         if self._lock is None:
             return
         try:
-            if _ident(self._lock_path()) == (os.fstat(self._lock).st_dev, os.fstat(self._lock).st_ino):
+            if _same_file(self._lock_path(), self._lock):
                 os.unlink(self._lock_path())
         except OSError:
             pass

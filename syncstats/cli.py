@@ -498,13 +498,12 @@ class _Stop:
     where the run is (workers are stopped and temporary files removed on the way out);
     a second one during that clean-up ends the process at once. While the finished
     results are being renamed into place a stop is ignored, so a run is never half
-    published. ``finished``: the command is over, a stop just ends the process."""
+    published."""
 
     def __init__(self):
         self.count = 0
         self.name = ""
         self.folder = None
-        self.finished = False
         self.saved = {}
 
     def install(self):
@@ -520,17 +519,15 @@ class _Stop:
                 pass
         return self
 
-    def restore(self):
+    def restore(self, ignore=False):
         import signal
 
         for sig, old in self.saved.items():
-            signal.signal(sig, old)
+            signal.signal(sig, signal.SIG_IGN if ignore else old)
 
     def handle(self, signum, frame):
         import os
 
-        if self.finished:
-            os._exit(130)
         if self.folder is not None and self.folder.committing:
             return  # the complete results are being put in place: let that finish
         self.count += 1
@@ -614,10 +611,7 @@ def main(argv=None) -> int:
         return 130
     finally:
         warnings.showwarning = saved
-        if as_command:
-            stop.finished = True  # the process ends now; keep the handlers
-        else:
-            stop.restore()
+        stop.restore(ignore=as_command)  # the command's process ends now: a late stop changes nothing
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -1,6 +1,7 @@
 """results.csv: the tidy table, every column at full precision."""
 from __future__ import annotations
 
+import csv
 import json
 from pathlib import Path
 
@@ -40,11 +41,16 @@ def write_results_csv(result, path) -> Path:
     """
     path = Path(path)
     table = result.table.copy()
+    lone_cr = False
     for c in table.columns:
         if not (pd.api.types.is_object_dtype(table[c]) or pd.api.types.is_string_dtype(table[c])):
             continue
         table[c] = table[c].map(_quote_text)
-    table.to_csv(path, index=False, encoding="utf-8", lineterminator="\n")
+        lone_cr = lone_cr or table[c].map(lambda v: isinstance(v, str) and "\r" in v).any()
+    # the csv writer quotes a field holding a line break only if it is the line terminator,
+    # so a label with a carriage return in it needs every text field quoted
+    table.to_csv(path, index=False, encoding="utf-8", lineterminator="\n",
+                 quoting=csv.QUOTE_NONNUMERIC if lone_cr else csv.QUOTE_MINIMAL)
     return path
 
 
