@@ -9,7 +9,7 @@ The rules (README, "When it refuses your data", says them to users):
   ends, even by SIGKILL; a second run to the same target is refused.
 * A missing target is created empty at once (``os.mkdir``, which fails if anything is
   there), so write errors show before any analysis and nothing else can take the name
-  during the run. Its identity (device, inode) is remembered.
+  during the run. Its identity (device, inode, change time) is remembered.
 * Files are built in ``.NAME.partial-PID-TAG`` beside the target and renamed into place
   only when complete. Publication checks that the target is still the one reserved and
   refuses rather than deletes: a folder that appeared or changed meanwhile is left as it
@@ -304,7 +304,8 @@ class OutputFolder:
     def _swap(self, tmp: Path, old: Path) -> None:
         out = self.path
         os.rename(out, old)
-        if _ident(old) != self._ident:  # swapped in the microseconds since the check: give it back
+        moved = _ident(old)  # a rename updates the change time: compare device and inode
+        if moved is None or moved[:2] != self._ident[:2]:  # swapped since the check: give it back
             os.rename(old, out)
             raise self._fail("was replaced by something else while syncstats was running, so it was left as it is",
                              "run again")
