@@ -487,42 +487,131 @@ def _plain_warnings():
     warnings.simplefilter("default", SyncstatsWarning)
 
 
+#: subcommands whose --out is a folder: reserved before any work (see syncstats._atomic)
+_FOLDER_OUT = ("analyze", "demo", "simulate", "power")
+
+_STOP_SIGNALS = ("SIGINT", "SIGTERM", "SIGHUP")
+
+
+class _Stop:
+    """Ctrl-C, SIGTERM and SIGHUP end a run cleanly: the first raises KeyboardInterrupt
+    where the run is (workers are stopped and temporary files removed on the way out);
+    a second one during that clean-up ends the process at once. While the finished
+    results are being renamed into place a stop is ignored, so a run is never half
+    published."""
+
+    def __init__(self):
+        self.count = 0
+        self.name = ""
+        self.folder = None
+        self.saved = {}
+
+    def install(self):
+        import signal
+
+        for name in _STOP_SIGNALS:
+            sig = getattr(signal, name, None)
+            if sig is None:
+                continue
+            try:
+                self.saved[sig] = signal.signal(sig, self.handle)
+            except (ValueError, OSError):  # not the main thread: keep the caller's handlers
+                pass
+        return self
+
+    def restore(self, ignore=False):
+        import signal
+
+        for sig, old in self.saved.items():
+            signal.signal(sig, signal.SIG_IGN if ignore else old)
+
+    def handle(self, signum, frame):
+        import os
+
+        if self.folder is not None and self.folder.committing:
+            return  # the complete results are being put in place: let that finish
+        self.count += 1
+        if self.count == 1:
+            import signal
+
+            self.name = signal.Signals(signum).name
+            raise KeyboardInterrupt
+        mp = sys.modules.get("multiprocessing")
+        for child in (mp.active_children() if mp else ()):
+            child.kill()
+        if self.folder is not None:
+            self.folder.release()
+        os.write(2, b"syncstats: stopped again during clean-up; exiting now.\n")
+        os._exit(130)
+
+
+def _reserve_out(args, record_paths):
+    """Check and claim the output folder before any work (exit 2 now rather than later)."""
+    if args.command not in _FOLDER_OUT or not getattr(args, "out", None):
+        return None
+    from ._atomic import OutputFolder
+
+    inputs = [getattr(args, "input", None), getattr(args, "config", None)]
+    inputs += [str(e).partition("=")[2] for e in (getattr(args, "events", None) or [])]
+    return OutputFolder(args.out, overwrite=bool(getattr(args, "overwrite", False)), protected=inputs, cli=True,
+                        record_paths=record_paths)
+
+
 def main(argv=None) -> int:
     """Entry point of the ``syncstats`` command; returns the exit status."""
-    argv = sys.argv[1:] if argv is None else list(argv)
-    debug = "--debug" in argv
-    argv = [a for a in argv if a != "--debug"]
-    parser = _build_parser()
+    stop = _Stop().install()  # first: a Ctrl-C from here on never shows a traceback
+    as_command, debug = argv is None, False
     saved = warnings.showwarning
-    _plain_warnings()
     try:
-        if not argv:
-            parser.print_help(sys.stderr)
+        try:
+            argv = sys.argv[1:] if argv is None else list(argv)
+            debug = "--debug" in argv
+            record_paths = "--record-paths" in argv
+            argv = [a for a in argv if a not in ("--debug", "--record-paths")]
+            _plain_warnings()
+            parser = _build_parser()
+            parser.add_argument("--record-paths", action="store_true",
+                                help="also record absolute input paths and the Python location in provenance.json "
+                                "(may stand anywhere on the line)")
+            if not argv:
+                parser.print_help(sys.stderr)
+                return 2
+            args = parser.parse_args(argv)
+            if args.command is None:
+                parser.print_help(sys.stderr)
+                return 2
+            stop.folder = _reserve_out(args, record_paths)
+            if stop.folder is not None:
+                args.out = stop.folder  # the writers publish into the reserved folder
+            try:
+                return {"analyze": _run_analyze, "demo": _run_demo, "simulate": _run_simulate,
+                        "check-claim": _run_check_claim, "power": _run_power}[args.command](args)
+            finally:
+                if stop.folder is not None:
+                    stop.folder.release()  # nothing to do after a publish; else remove what it made
+        except SyncstatsInputError as err:
+            if debug:
+                raise
+            print(f"syncstats: error: {err}", file=sys.stderr)
             return 2
-        args = parser.parse_args(argv)
-        if args.command is None:
-            parser.print_help(sys.stderr)
-            return 2
-        return {"analyze": _run_analyze, "demo": _run_demo, "simulate": _run_simulate,
-                "check-claim": _run_check_claim, "power": _run_power}[args.command](args)
-    except SyncstatsInputError as err:
-        if debug:
-            raise
-        print(f"syncstats: error: {err}", file=sys.stderr)
-        return 2
+        except Exception as err:
+            if stop.count:  # a stop signal broke something on its way (e.g. a worker ended by SIGTERM)
+                raise KeyboardInterrupt from None
+            if debug:
+                raise
+            print(
+                f"syncstats: internal error ({type(err).__name__}: {err}); rerun with --debug and report the "
+                "traceback.",
+                file=sys.stderr,
+            )
+            return 1
     except KeyboardInterrupt:
-        print("syncstats: interrupted; nothing was written.", file=sys.stderr)
+        what = "interrupted" if stop.name in ("", "SIGINT") else f"stopped by {stop.name}"
+        print(f"syncstats: {what}; nothing was written.", file=sys.stderr)
         return 130
-    except Exception as err:  # an internal error: not the user's fault
-        if debug:
-            raise
-        print(
-            f"syncstats: internal error ({type(err).__name__}: {err}); rerun with --debug and report the traceback.",
-            file=sys.stderr,
-        )
-        return 1
     finally:
         warnings.showwarning = saved
+        stop.restore(ignore=as_command)  # the command's process ends now: a late stop changes nothing
 
 
 if __name__ == "__main__":  # pragma: no cover

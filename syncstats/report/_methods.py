@@ -47,6 +47,16 @@ _NULL_LEVEL_TEXT = {
 }
 
 
+_MD_SPECIAL = set("\\`*_[]{}<>&|~#!")
+_HTML = {"<": "&lt;", ">": "&gt;", "&": "&amp;"}
+
+
+def _label(x) -> str:
+    """A label (signal, recording, band or method name) as literal text in Markdown:
+    HTML's ``< > &`` become entities and Markdown's markup characters get a backslash."""
+    return "".join(_HTML.get(ch) or ("\\" + ch if ch in _MD_SPECIAL else ch) for ch in str(x))
+
+
 def _as_list(x) -> list:
     if x is None:
         return []
@@ -107,14 +117,14 @@ def _phase_sentence(params: dict, diagnostics: pd.DataFrame, cite: _Cites) -> st
     if methods & {"phase", "phases"}:
         parts.append("phases supplied directly with the data (used as given)")
     other = sorted(methods - {"hilbert", "wavelet", "events", "event", "phase", "phases"})
-    parts.extend(f"the '{m}' method" for m in other)
+    parts.extend(f"the '{_label(m)}' method" for m in other)
     if not parts:
         return ""
     s = f"Instantaneous phases were obtained from {_join(parts)}."
     bands = params.get("bands")
     if bands:
         if isinstance(bands, dict):
-            txt = _join([f"{k} {_band_txt(v)}" for k, v in bands.items()])
+            txt = _join([f"{_label(k)} {_band_txt(v)}" for k, v in bands.items()])
         else:
             txt = _band_txt(bands)
         s += f" Pass bands: {txt}."
@@ -131,7 +141,7 @@ def _band_txt(v) -> str:
         lo, hi = (float(x) for x in v)
         return f"{lo:.3g}–{hi:.3g} Hz"
     except (TypeError, ValueError):
-        return str(v)
+        return _label(v)
 
 
 def _windows_text(windows, table) -> str:
@@ -199,7 +209,8 @@ def _example_pair(table: pd.DataFrame):
         return None
     nonunit = pairs[(pairs["p"] != pairs["q"])]
     row = (nonunit if not nonunit.empty else pairs).iloc[0]
-    return str(row["signal_a"]), str(row["signal_b"]), int(row["p"]), int(row["q"]), str(row["ratio"])
+    return (_label(row["signal_a"]), _label(row["signal_b"]), int(row["p"]), int(row["q"]),
+            _label(row["ratio"]))
 
 
 def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
@@ -249,7 +260,7 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     mtxt = []
     for m in measures:
         entry = MEASURE_METHODS.get(m)
-        mtxt.append(entry.description + cite(entry.citations) if entry else f"the measure '{m}'")
+        mtxt.append(entry.description + cite(entry.citations) if entry else f"the measure '{_label(m)}'")
     if mtxt:
         para.append(f"Locking was quantified by {_join(mtxt)}.")
 
@@ -262,7 +273,7 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     sur = str(params.get("surrogate") or "")
     if n_sur > 0:
         entry = SURROGATE_METHODS.get(sur)
-        text = entry.description + cite(entry.citations) if entry else f"'{sur}' surrogates"
+        text = entry.description + cite(entry.citations) if entry else f"'{_label(sur)}' surrogates"
         per_signal = entry is not None and entry.acts_on == "signal"
         s = (f"Significance was tested against {n_sur} {text}"
              + (", generated independently for each signal." if per_signal else ".")
@@ -287,7 +298,7 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
         alpha = params.get("alpha")
         fam = ""
         if table is not None and not table.empty:
-            fams = [f for f in dict.fromkeys(table["family"].astype(str)) if f]
+            fams = [_label(f) for f in dict.fromkeys(table["family"].astype(str)) if f]
             if fams:
                 fam = f" The family corrected for was: {'; '.join(fams)}."
         if corr in ("none", ""):
@@ -295,7 +306,7 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
                         "per test." + fam)
         else:
             entry = CORRECTION_METHODS.get(corr)
-            text = entry.description + cite(entry.citations) if entry else f"the '{corr}' correction"
+            text = entry.description + cite(entry.citations) if entry else f"the '{_label(corr)}' correction"
             para.append(f"Every ratio, pair and window searched was corrected for together with "
                         f"{text}.{fam}")
         if alpha is not None:
@@ -334,7 +345,7 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     run_notes = [str(n) for n in (result.notes or []) if str(n).strip()] if notes else []
     if run_notes:
         lines += ["## Notes from the run", ""]
-        lines += [f"- {n}" for n in run_notes]
+        lines += [f"- {_label(n)}" for n in run_notes]
         lines.append("")
 
     if caution:

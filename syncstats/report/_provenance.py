@@ -40,9 +40,11 @@ def _version(dist: str):
         return None
 
 
-def _input_entry(p) -> dict:
+def _input_entry(p, record_paths: bool = False) -> dict:
     path = Path(os.fspath(p))
-    entry = {"path": str(path), "absolute_path": str(path.absolute())}
+    entry = {"path": os.fspath(p)}
+    if record_paths:
+        entry["absolute_path"] = str(path.absolute())
     if path.is_file():
         entry.update(size_bytes=path.stat().st_size, sha256=sha256_file(path))
     elif path.is_dir():
@@ -83,8 +85,13 @@ def to_jsonable(x):
     return str(x)
 
 
-def build_provenance(result) -> dict:
-    """The provenance record of ``result`` (a JSON-ready dict)."""
+def build_provenance(result, *, record_paths: bool = False) -> dict:
+    """The provenance record of ``result`` (a JSON-ready dict).
+
+    Inputs are recorded by the path as given plus size and SHA-256; absolute paths and
+    the interpreter's location (which tell user names and folder layouts) only with
+    ``record_paths=True``.
+    """
     params = to_jsonable(dict(result.params or {}))
     table = result.table
     return {
@@ -100,7 +107,7 @@ def build_provenance(result) -> dict:
         "python": {
             "version": platform.python_version(),
             "implementation": platform.python_implementation(),
-            "executable": sys.executable,
+            **({"executable": sys.executable} if record_paths else {}),
         },
         "platform": {
             "system": platform.system(),
@@ -109,7 +116,7 @@ def build_provenance(result) -> dict:
             "platform": platform.platform(),
         },
         "parameters": params,
-        "inputs": [_input_entry(p) for p in (result.inputs or [])],
+        "inputs": [_input_entry(p, record_paths) for p in (result.inputs or [])],
         "table": {
             "rows": int(len(table)) if table is not None else 0,
             "columns": [str(c) for c in table.columns] if table is not None else [],

@@ -6,7 +6,7 @@ from pathlib import Path
 from .._errors import SyncstatsInputError
 from ..results import ResultData
 from . import _html, _methods, _provenance, _table
-from .._atomic import write_folder_atomically
+from .._atomic import OutputFolder, write_folder_atomically
 
 __all__ = ["save_result", "OUTPUT_FILES"]
 
@@ -14,19 +14,26 @@ __all__ = ["save_result", "OUTPUT_FILES"]
 OUTPUT_FILES = ("results.csv", "report.html", "methods.md", "provenance.json")
 
 
-def save_result(result: ResultData, out_dir, *, overwrite: bool = False) -> Path:
+def save_result(result: ResultData, out_dir, *, overwrite: bool = False, record_paths: bool | None = None) -> Path:
     """Write results.csv, report.html, methods.md and provenance.json into ``out_dir``.
 
     Parameters
     ----------
     result : ResultData
         What ``syncstats.analyze`` returned.
-    out_dir : str or path-like
-        A new or empty folder (parents are created). A non-empty folder is refused
-        unless ``overwrite=True``.
+    out_dir : str, path-like or OutputFolder
+        A new or empty folder (parents are created), or one reserved earlier with
+        :class:`syncstats._atomic.OutputFolder` (the command line reserves ``--out`` before
+        analysing). A non-empty folder is refused unless ``overwrite=True``; a symbolic
+        link is always refused.
     overwrite : bool, default False
-        Replace the contents of a non-empty ``out_dir`` (swapped in by renames, so the old
-        contents stay intact if writing fails). Refused if an input file lies inside it.
+        Replace a non-empty ``out_dir`` (swapped in by renames after the new folder is
+        complete, so the old contents stay intact if writing fails). Refused if an input
+        file lies inside it. A reserved folder carries its own setting.
+    record_paths : bool, optional
+        Also record absolute input paths and the Python interpreter's location in
+        provenance.json (default: only the paths as given, with content hashes). A
+        reserved folder carries its own setting.
 
     Returns
     -------
@@ -49,7 +56,9 @@ def save_result(result: ResultData, out_dir, *, overwrite: bool = False) -> Path
             f"save_result expects the result of syncstats.analyze (a ResultData), got "
             f"{type(result).__name__}; pass the object analyze returned."
         )
-    prov = _provenance.build_provenance(result)
+    if record_paths is None:
+        record_paths = out_dir.record_paths if isinstance(out_dir, OutputFolder) else False
+    prov = _provenance.build_provenance(result, record_paths=record_paths)
 
     def build(folder: Path) -> None:
         written = [

@@ -1,6 +1,7 @@
 """results.csv: the tidy table, every column at full precision."""
 from __future__ import annotations
 
+import csv
 import json
 from pathlib import Path
 
@@ -9,7 +10,14 @@ import pandas as pd
 
 from ..results import COLUMNS, empty_table
 
-__all__ = ["write_results_csv", "read_results_csv", "column_dtypes"]
+__all__ = ["write_results_csv", "read_results_csv", "column_dtypes", "FORMULA_START"]
+
+#: a text cell starting with one of these is read as a formula by spreadsheets; such cells
+#: (and cells starting with the quote itself, so the rule can be undone) get a leading
+#: single quote, which makes a spreadsheet show the cell as text (common practice, the
+#: OWASP-style rule against CSV formula injection)
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+_QUOTE = "'"
 
 _TEXT = ("object", "str", "string")
 _BOOL = ("bool", "boolean")
@@ -26,10 +34,36 @@ def write_results_csv(result, path) -> Path:
     Missing values are written as empty fields; ``significant`` as True / False / empty.
     Floats are written with the shortest representation that reads back to the same
     double, so :func:`read_results_csv` returns the identical table.
+
+    Text cells (labels, never numbers) that a spreadsheet would run as a formula are
+    written with a leading single quote (see :data:`FORMULA_START`);
+    :func:`read_results_csv` removes it again.
     """
     path = Path(path)
-    result.table.to_csv(path, index=False, encoding="utf-8", lineterminator="\n")
+    table = result.table.copy()
+    lone_cr = False
+    for c in table.columns:
+        if not (pd.api.types.is_object_dtype(table[c]) or pd.api.types.is_string_dtype(table[c])):
+            continue
+        table[c] = table[c].map(_quote_text)
+        lone_cr = lone_cr or table[c].map(lambda v: isinstance(v, str) and "\r" in v).any()
+    # the csv writer quotes a field holding a line break only if it is the line terminator,
+    # so a label with a carriage return in it needs every text field quoted
+    table.to_csv(path, index=False, encoding="utf-8", lineterminator="\n",
+                 quoting=csv.QUOTE_NONNUMERIC if lone_cr else csv.QUOTE_MINIMAL)
     return path
+
+
+def _quote_text(v):
+    if isinstance(v, str) and v.startswith(FORMULA_START + (_QUOTE,)):
+        return _QUOTE + v
+    return v
+
+
+def _unquote_text(v):
+    if isinstance(v, str) and v.startswith(_QUOTE):
+        return v[1:]
+    return v
 
 
 def _dtypes_beside(path: Path) -> dict:
@@ -73,6 +107,9 @@ def read_results_csv(path, *, dtypes: dict | None = None) -> pd.DataFrame:
     na = {c: [""] for c in header if c not in as_text}
     df = pd.read_csv(path, dtype={c: str for c in as_text}, keep_default_na=False,
                      na_values=na)
+    for c in df.columns:
+        if pd.api.types.is_object_dtype(df[c]) or pd.api.types.is_string_dtype(df[c]):
+            df[c] = df[c].map(_unquote_text)
     for c, k in kinds.items():
         if k is None:
             continue
