@@ -165,20 +165,20 @@ def check_int(value, name: str, *, low: int | None = None, high: int | None = No
     """A whole number within [low, high] (booleans and fractions refused)."""
     rng = _range_words(low, high)
     if isinstance(value, bool) or value is None:
-        raise SyncstatsInputError(f"{name} must be a whole number{rng}; got {value!r}.{_hint(hint)}")
+        raise SyncstatsInputError(f"{name} must be a whole number{rng}; got {value!r}{_hint(hint)}.")
     if isinstance(value, str):
         s = value.strip()
         if not s.lstrip("+-").isdigit() or len(s) > 18:
-            raise SyncstatsInputError(f"{name} must be a whole number{rng}; got {value!r}.{_hint(hint)}")
+            raise SyncstatsInputError(f"{name} must be a whole number{rng}; got {value!r}{_hint(hint)}.")
         v = int(s)
     elif isinstance(value, Integral):
         v = int(value)
     elif isinstance(value, Real) and math.isfinite(float(value)) and float(value).is_integer():
         v = int(value)
     else:
-        raise SyncstatsInputError(f"{name} must be a whole number{rng}; got {value!r}.{_hint(hint)}")
+        raise SyncstatsInputError(f"{name} must be a whole number{rng}; got {value!r}{_hint(hint)}.")
     if (low is not None and v < low) or (high is not None and v > high):
-        raise SyncstatsInputError(f"{name} must be a whole number{rng}; got {v}.{_hint(hint)}")
+        raise SyncstatsInputError(f"{name} must be a whole number{rng}; got {v}{_hint(hint)}.")
     return v
 
 
@@ -187,17 +187,17 @@ def check_float(value, name: str, *, low: float | None = None, high: float | Non
     """A finite number within the given bounds (booleans refused)."""
     rng = _range_words(low, high, open_low, open_high)
     if isinstance(value, bool) or value is None or isinstance(value, (list, tuple, dict)):
-        raise SyncstatsInputError(f"{name} must be a number{rng}; got {value!r}.{_hint(hint)}")
+        raise SyncstatsInputError(f"{name} must be a number{rng}; got {value!r}{_hint(hint)}.")
     try:
         v = float(value) if not isinstance(value, str) else float(value.strip())
     except (TypeError, ValueError, OverflowError):
-        raise SyncstatsInputError(f"{name} must be a number{rng}; got {value!r}.{_hint(hint)}") from None
+        raise SyncstatsInputError(f"{name} must be a number{rng}; got {value!r}{_hint(hint)}.") from None
     if not math.isfinite(v):
-        raise SyncstatsInputError(f"{name} must be a finite number{rng}; got {value!r}.{_hint(hint)}")
+        raise SyncstatsInputError(f"{name} must be a finite number{rng}; got {value!r}{_hint(hint)}.")
     if low is not None and (v < low or (open_low and v == low)):
-        raise SyncstatsInputError(f"{name} must be a number{rng}; got {value!r}.{_hint(hint)}")
+        raise SyncstatsInputError(f"{name} must be a number{rng}; got {value!r}{_hint(hint)}.")
     if high is not None and (v > high or (open_high and v == high)):
-        raise SyncstatsInputError(f"{name} must be a number{rng}; got {value!r}.{_hint(hint)}")
+        raise SyncstatsInputError(f"{name} must be a number{rng}; got {value!r}{_hint(hint)}.")
     return v
 
 
@@ -232,4 +232,5 @@ def _range_words(low, high, open_low=False, open_high=False) -> str:
 
 
 def _hint(h: str) -> str:
-    return f" {h}" if h else ""
+    h = h.strip().rstrip(".")
+    return f"; {h[:1].lower()}{h[1:]}" if h else ""

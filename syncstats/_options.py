@@ -34,10 +34,13 @@ class AnalysisOptions:
     ci_level: float
     ci_method: str
     n_bootstrap: int
-    batch_size: int
+    batch_size: int | None
     n_jobs: int | None
     group_label: str
     progress: Callable | None
+    decimate: bool | int
+    spectral_filter: bool
+    memory_mb: float | None
 
 
 def _choice(value, name, registry):
@@ -48,7 +51,7 @@ def _choice(value, name, registry):
 
 def check_options(*, measures, surrogate, n_surrogates, correction, alpha, rng, protophase_correction, edge_s,
                   min_shift_s, ci_level, ci_method, n_bootstrap, batch_size, n_jobs, group_label,
-                  progress) -> AnalysisOptions:
+                  progress, decimate=True, spectral_filter=False, memory_mb=256.0) -> AnalysisOptions:
     """Every plain option of ``analyze`` checked at once (inputs and design come later)."""
     ms = (measures,) if isinstance(measures, str) else measures
     try:
@@ -81,8 +84,12 @@ def check_options(*, measures, surrogate, n_surrogates, correction, alpha, rng, 
         ci_method=_choice(ci_method, "ci_method", CI_METHODS),
         n_bootstrap=check_int(n_bootstrap, "n_bootstrap", low=0, high=MAX_BOOTSTRAP,
                               hint="Use 0 to skip the intervals."),
-        batch_size=check_int(batch_size, "batch_size", low=1, high=100_000),
+        batch_size=None if batch_size is None else check_int(batch_size, "batch_size", low=1, high=100_000),
         n_jobs=None if n_jobs is None else check_int(n_jobs, "n_jobs", low=1, high=1024),
         group_label=str(group_label),
         progress=progress,
+        decimate=decimate if isinstance(decimate, (bool, np.bool_)) else check_int(
+            decimate, "decimate", low=1, high=10_000, hint="Use true, false or a whole-number factor."),
+        spectral_filter=check_bool(spectral_filter, "spectral_filter"),
+        memory_mb=None if memory_mb is None else check_float(memory_mb, "memory_mb", low=1),
     )

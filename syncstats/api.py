@@ -29,12 +29,14 @@ __all__ = ["analyze", "AnalysisResult", "combine_results"]
 class AnalysisResult(ResultData):
     """The result of :func:`analyze` (see :class:`syncstats.results.ResultData`)."""
 
-    def save(self, out_dir, *, overwrite: bool = False):
+    def save(self, out_dir, *, overwrite: bool = False, record_paths: bool | None = None):
         """Write ``results.csv``, ``report.html``, ``methods.md`` and ``provenance.json``
-        to ``out_dir`` atomically (a failed write leaves no partial folder)."""
+        to ``out_dir`` atomically (a failed write leaves no partial folder).
+        ``record_paths``: also record absolute input paths and the Python location in
+        provenance.json (by default only the paths as given and content hashes)."""
         from .report import save_result
 
-        return save_result(self, out_dir, overwrite=overwrite)
+        return save_result(self, out_dir, overwrite=overwrite, record_paths=record_paths)
 
 
 def analyze(
@@ -61,7 +63,10 @@ def analyze(
     ci_level=0.95,
     ci_method="percentile",
     n_bootstrap=999,
-    batch_size=32,
+    batch_size=None,
+    decimate=True,
+    spectral_filter=False,
+    memory_mb=256.0,
     executor=None,
     n_jobs=None,
     recording=None,
@@ -124,8 +129,19 @@ def analyze(
     ci_level, ci_method, n_bootstrap
         Confidence interval of each value by a bootstrap over whole cycles ("percentile",
         "bca" or "basic"; 0 resamples skips the intervals).
-    batch_size : int
-        Surrogates per batch (memory O(batch_size x N)); does not change results.
+    batch_size : int, optional
+        Surrogates per batch (memory O(batch_size x N)); default: as many as fit in
+        ``memory_mb``. Does not change results.
+    decimate : bool or int, default True
+        Analyse on a common grid at least 10 times the highest frequency any rhythm
+        needs (zero-phase anti-alias filter, integer factor; an int forces the factor),
+        for data and surrogates alike; the analysis rate is stated in the notes and
+        params. False keeps the recorded rate.
+    spectral_filter : bool, default False
+        Band-pass and analytic signal in the frequency domain (one inverse FFT per
+        surrogate; phases differ from the time-domain filter only near the record ends).
+    memory_mb : float, default 256
+        Working-memory cap of one batch of surrogates (results do not change).
     executor : None, "serial", "processes", a concurrent.futures executor or a dask Client
     n_jobs : int, optional
         Workers for ``executor="processes"``.
@@ -154,11 +170,12 @@ def analyze(
         measures=measures, surrogate=surrogate, n_surrogates=n_surrogates, correction=correction, alpha=alpha,
         rng=rng, protophase_correction=protophase_correction, edge_s=edge_s, min_shift_s=min_shift_s,
         ci_level=ci_level, ci_method=ci_method, n_bootstrap=n_bootstrap, batch_size=batch_size, n_jobs=n_jobs,
-        group_label=group_label, progress=progress,
+        group_label=group_label, progress=progress, decimate=decimate, spectral_filter=spectral_filter,
+        memory_mb=memory_mb,
     )
     inputs = collect_inputs(signals, fs, events, phases, recording)
-    pipe = Pipeline.fix(inputs, bands=bands, phase_method=phase_method,
-                        protophase_correction=opt.protophase_correction, edge_s=opt.edge_s)
+    pipe = Pipeline.fix(inputs, bands=bands, phase_method=phase_method, protophase_correction=opt.protophase_correction,
+                        edge_s=opt.edge_s, decimate=opt.decimate, spectral_filter=opt.spectral_filter)
     design = inf.make_design(pipe, pairs=pairs, ratios=ratios, measures=opt.measures, windows=windows,
                              window_step=window_step, group_label=opt.group_label)
     observed = np.atleast_1d(design.family.evaluate(pipe.data))
@@ -168,8 +185,8 @@ def analyze(
         options, notes = inf.method_options(opt.surrogate, pipe, design, opt.n_surrogates, opt.min_shift_s)
         method_warn = _method_warnings(opt.surrogate, pipe, options)
         null = inf.null_distribution(pipe, design.family, opt.surrogate, opt.n_surrogates, opt.seed, options=options,
-                                     batch_size=opt.batch_size, executor=executor, n_jobs=opt.n_jobs,
-                                     progress=opt.progress)
+                                     batch_size=opt.batch_size, memory_mb=opt.memory_mb, executor=executor,
+                                     n_jobs=opt.n_jobs, progress=opt.progress)
     pref, ncyc = design.row_summaries(pipe.data)
     test = inf.test_family(observed, null, design, opt.correction, opt.alpha, n_cycles=ncyc)
     chosen = inf.choose_ratios(design, pipe.data, observed, test, alpha=opt.alpha,
@@ -178,7 +195,7 @@ def analyze(
                                   level=opt.ci_level, method=opt.ci_method)
     diags = pipe.diagnostics()
     table = build_table(
-        design, recording=inputs.recording, time_s=pipe.time_s, fs=inputs.fs, observed=observed, test=test,
+        design, recording=inputs.recording, time_s=pipe.time_s, fs=pipe.inputs.fs, observed=observed, test=test,
         ratios=chosen, intervals=intervals, preferred_phase=pref, n_cycles=ncyc,
         row_warnings=_row_warnings(design, diags, method_warn, ncyc, test, opt.n_surrogates),
         surrogate=opt.surrogate, n_surrogates=opt.n_surrogates, alpha=opt.alpha, ci_level=opt.ci_level,
@@ -190,14 +207,14 @@ def analyze(
         "no surrogates drawn: measures only, no test"]
     return AnalysisResult(
         table=table,
-        diagnostics=_diagnostics_frame(diags, inputs),
+        diagnostics=_diagnostics_frame(diags, pipe.inputs),
         params=_params(opt, inputs, pipe, design, options, level, ratios, started),
         null_distribution=None if null is None else np.ascontiguousarray(null.T),
         phase_differences=design.psi_samples(pipe.data),
         phases={n: pipe.data[n][0] for n in inputs.names},
         time_s=pipe.time_s.copy(),
         events={n: e.copy() for n, e in inputs.events.items()},
-        notes=tuple(lead + notes + list(test.notes)),
+        notes=tuple(lead + list(pipe.notes) + notes + list(test.notes)),
         inputs=tuple(inputs.sources),
     )
 
@@ -248,9 +265,13 @@ def _diagnostics_frame(diags, inputs):
 
 
 def _params(opt, inputs, pipe, design, options, level, ratios_requested, started):
-    fs, t = inputs.fs, pipe.time_s
+    fs, t = pipe.inputs.fs, pipe.time_s
     return {
-        "fs": fs,
+        "fs": inputs.fs,
+        "analysis_fs": fs,
+        "decimation": pipe.decimation,
+        "spectral_filter": opt.spectral_filter,
+        "memory_mb": opt.memory_mb,
         "pairs": [list(p) for p in design.pairs],
         "ratios": {f"{a}|{b}": [f"{p}:{q}" for p, q in rl] for (a, b), rl in design.ratios.items()},
         "ratios_requested": ratios_requested if isinstance(ratios_requested, str) or ratios_requested is None

@@ -2,7 +2,8 @@
 
 Exit status: 0 success; 2 bad input or usage (one plain sentence on stderr naming the
 file/signal/option at fault and what to do; a traceback only with ``--debug``);
-130 interrupted (nothing written); 1 an internal error. ``python -m syncstats`` is the
+3 a study in which some recordings failed and the rest were written (each failure
+named with its reason); 130 interrupted (nothing written); 1 an internal error. ``python -m syncstats`` is the
 same command. Outputs are written atomically; inputs are never modified.
 """
 from __future__ import annotations
@@ -15,7 +16,6 @@ import tomllib
 import warnings
 from pathlib import Path
 
-from ._checks import check_bool, check_float, check_int, parse_ratios
 from ._errors import SyncstatsInputError
 
 __all__ = ["main"]
@@ -72,11 +72,27 @@ def _bands(v, key):
 
 
 def _num(low=None, high=None, open_low=False, open_high=False):
-    return lambda v, key: check_float(v, f"option {key}", low=low, high=high, open_low=open_low, open_high=open_high)
+    def conv(v, key):
+        from ._checks import check_float
+
+        return check_float(v, f"option {key}", low=low, high=high, open_low=open_low, open_high=open_high)
+
+    return conv
 
 
 def _whole(low=None, high=None):
-    return lambda v, key: check_int(v, f"option {key}", low=low, high=high)
+    def conv(v, key):
+        from ._checks import check_int
+
+        return check_int(v, f"option {key}", low=low, high=high)
+
+    return conv
+
+
+def _flag(v, key):
+    from ._checks import check_bool
+
+    return check_bool(v, f"option {key}")
 
 
 #: every analysis option: config key -> converter; the command line and a --config file
@@ -95,7 +111,7 @@ CONFIG_KEYS = {
     "seed": _whole(0),
     "bands": _bands,
     "phase_method": _str,
-    "protophase_correction": lambda v, key: check_bool(v, f"option {key}"),
+    "protophase_correction": _flag,
     "windows": _num(0, open_low=True),
     "window_step": _num(0, open_low=True),
     "edge_s": _num(0),
@@ -109,7 +125,7 @@ CONFIG_KEYS = {
     "resample_to": _num(0, open_low=True),
     "annotation": _str,
     "time_column": _str,
-    "allow_truncated": lambda v, key: check_bool(v, f"option {key}"),
+    "allow_truncated": _flag,
 }
 
 
@@ -192,6 +208,29 @@ def _build_parser() -> argparse.ArgumentParser:
     )
     a.add_argument("input", help="CSV/TSV, Parquet, EDF/BDF, WFDB (.hea) or an event list (.txt)")
     _add_analysis_options(a, MEASURE_METHODS, SURROGATE_METHODS, CORRECTION_METHODS, CI_METHODS)
+
+    st = sub.add_parser(
+        "study", help="analyse every recording of a study and test across subjects",
+        description="Analyse each recording a manifest lists (recording, file, subject, group, condition), "
+        "then test across subjects: one-sample, paired between conditions, between groups, preferred-phase "
+        "consistency. Writes results.csv, study_results.csv, report.html, methods.md, provenance.json. "
+        "Exit 3 when some recordings failed and the rest were written.")
+    st.add_argument("manifest", help="CSV with the columns recording, file, subject, group, condition "
+                    "(optional: fs, signals, events, time_column, annotation)")
+    _add_analysis_options(st, MEASURE_METHODS, SURROGATE_METHODS, CORRECTION_METHODS, CI_METHODS)
+    st.add_argument("--summary", choices=("effect", "z", "value"), default="effect", dest="measure_summary",
+                    help="per-recording value tested across subjects (default effect = value - null mean)")
+    st.add_argument("--second-level-correction", dest="second_level_correction", default="fdr_bh",
+                    choices=("fdr_bh", "fdr_by", "holm", "bonferroni", "none"),
+                    help="correction over the second-level tests (default fdr_bh)")
+    st.add_argument("--repeated", dest="repeated_measures", choices=("mean", "mixed_model"), default="mean",
+                    help="several recordings of a subject in one condition: average them (default) or a "
+                    "mixed model")
+    st.add_argument("--scheduler", metavar="ADDRESS",
+                    help="Dask scheduler address (tcp://host:8786), or 'local' for a local cluster")
+    st.add_argument("--cache", metavar="DIR", help="cache of finished recordings (default: OUT.cache beside "
+                    "the output folder)")
+    st.add_argument("--no-cache", dest="no_cache", action="store_true", help="do not cache finished recordings")
 
     c = sub.add_parser("check-claim", help="check a reported synchrony claim from its numbers alone",
                        description="What a reported locking index and p-value can support, given how many cycles "
@@ -332,7 +371,12 @@ def _analysis_kwargs(opts, quiet):
     if opts.get("pairs"):
         kw["pairs"] = [tuple(p) for p in opts["pairs"]]
     if "ratios" in opts:
-        kw["ratios"] = "auto" if opts["ratios"].strip() == "auto" else parse_ratios(opts["ratios"])
+        from ._checks import parse_ratios
+
+        try:
+            kw["ratios"] = "auto" if opts["ratios"].strip() == "auto" else parse_ratios(opts["ratios"])
+        except SyncstatsInputError as err:
+            raise SyncstatsInputError(f"--ratios: {err}") from None
     if "measures" in opts:
         kw["measures"] = tuple(_split(opts["measures"]))
     jobs = int(opts.get("jobs", 1))
@@ -383,6 +427,54 @@ def _run_analyze(args):
     out = res.save(args.out, overwrite=args.overwrite)
     _summary(res, out, args.quiet)
     return 0
+
+
+def _run_study(args):
+    from .study import analyze_study
+
+    opts = _options(args)
+    if opts.get("events"):
+        raise SyncstatsInputError("--events does not apply to a study; list event files in the manifest's "
+                                  "'events' column (NAME=FILE;NAME=FILE).")
+    if opts.get("gaps", "error") != "error":
+        raise SyncstatsInputError("--gaps split does not apply to a study; give each gap-free piece its own "
+                                  "manifest row.")
+    kw = _analysis_kwargs(opts, args.quiet)
+    executor, n_jobs = kw.pop("executor", None), kw.pop("n_jobs", None)
+    if args.scheduler:
+        executor = args.scheduler.strip()
+        if executor != "local" and "://" not in executor:
+            raise SyncstatsInputError(f"--scheduler '{args.scheduler}' must be an address such as "
+                                      "tcp://host:8786, or 'local'.")
+    rng = kw.pop("rng", None)
+    read_options = {k: opts[k] for k in ("time_column", "annotation", "resample_to") if opts.get(k) is not None}
+    if opts.get("allow_truncated"):
+        read_options["allow_truncated"] = True
+    if "fs" in opts:  # study-wide defaults; the manifest's own columns win
+        read_options["fs"] = opts["fs"]
+    if "signals" in opts:
+        read_options["signals"] = _split(opts["signals"])
+    cache = None if args.no_cache else (args.cache or str(Path(str(args.out))) + ".cache")
+    done = [0]
+
+    def tick(name, status):
+        done[0] += 1
+        if not args.quiet:
+            print(f"syncstats: [{done[0]}] {name}: {status}", file=sys.stderr)
+
+    res = analyze_study(args.manifest, measure_summary=args.measure_summary,
+                        second_level_correction=args.second_level_correction,
+                        repeated_measures=args.repeated_measures, executor=executor, n_jobs=n_jobs,
+                        cache_dir=cache, rng=rng, read_options=read_options, progress=tick, **kw)
+    out = res.save(args.out, overwrite=args.overwrite)
+    for _, f in res.failures.iterrows():
+        print(f"syncstats: recording '{f['recording']}' ({f['file']}) failed: {f['reason']}", file=sys.stderr)
+    if not args.quiet:
+        n_sig = int(res.second_level["significant"].fillna(False).astype(bool).sum())
+        print(f"syncstats: {res.n_recordings - res.n_failed} of {res.n_recordings} recordings analysed "
+              f"({res.n_computed} computed, {res.n_cached} from the cache); {len(res.second_level)} second-level "
+              f"tests, {n_sig} significant after correction; wrote {out}")
+    return 3 if res.n_failed else 0
 
 
 def _summary(res, out, quiet):
@@ -488,7 +580,7 @@ def _plain_warnings():
 
 
 #: subcommands whose --out is a folder: reserved before any work (see syncstats._atomic)
-_FOLDER_OUT = ("analyze", "demo", "simulate", "power")
+_FOLDER_OUT = ("analyze", "demo", "simulate", "power", "study")
 
 _STOP_SIGNALS = ("SIGINT", "SIGTERM", "SIGHUP")
 
@@ -551,7 +643,7 @@ def _reserve_out(args, record_paths):
         return None
     from ._atomic import OutputFolder
 
-    inputs = [getattr(args, "input", None), getattr(args, "config", None)]
+    inputs = [getattr(args, "input", None), getattr(args, "manifest", None), getattr(args, "config", None)]
     inputs += [str(e).partition("=")[2] for e in (getattr(args, "events", None) or [])]
     return OutputFolder(args.out, overwrite=bool(getattr(args, "overwrite", False)), protected=inputs, cli=True,
                         record_paths=record_paths)
@@ -585,7 +677,7 @@ def main(argv=None) -> int:
                 args.out = stop.folder  # the writers publish into the reserved folder
             try:
                 return {"analyze": _run_analyze, "demo": _run_demo, "simulate": _run_simulate,
-                        "check-claim": _run_check_claim, "power": _run_power}[args.command](args)
+                        "check-claim": _run_check_claim, "power": _run_power, "study": _run_study}[args.command](args)
             finally:
                 if stop.folder is not None:
                     stop.folder.release()  # nothing to do after a publish; else remove what it made
