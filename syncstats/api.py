@@ -67,6 +67,7 @@ def analyze(
     decimate=True,
     spectral_filter=False,
     memory_mb=256.0,
+    all_shifts=None,
     executor=None,
     n_jobs=None,
     recording=None,
@@ -124,8 +125,15 @@ def analyze(
         Seconds dropped at each end after filtering (default: one period of the lowest
         band edge, at most 10 % of the record).
     min_shift_s : float, optional
-        Smallest circular shift for ``time_shift`` (default five mean cycles of the
-        slowest rhythm).
+        Smallest circular shift for ``time_shift``. Default: one sample — every shift of
+        the circle but the identity, so the shifts form a group and the test is an exact
+        permutation test (excluding shifts near the observed alignment inflated the
+        false-positive rate on slowly varying rhythms). The notes report how many shifts
+        are effectively independent (from the correlation length of the shift curve).
+    all_shifts : bool, optional
+        ``time_shift`` over every admissible shift (an exact permutation test, one FFT per
+        pair and ratio) instead of ``n_surrogates`` random shifts. Default: used wherever
+        it applies (two rhythms, whole-record PLV rows).
     ci_level, ci_method, n_bootstrap
         Confidence interval of each value by a bootstrap over whole cycles ("percentile",
         "bca" or "basic"; 0 resamples skips the intervals).
@@ -179,14 +187,18 @@ def analyze(
     design = inf.make_design(pipe, pairs=pairs, ratios=ratios, measures=opt.measures, windows=windows,
                              window_step=window_step, group_label=opt.group_label)
     observed = np.atleast_1d(design.family.evaluate(pipe.data))
-    null, level, notes, options, method_warn = None, "", [], {}, {}
+    null, level, notes, options, method_warn, plan = None, "", [], {}, {}, None
     if opt.n_surrogates:
         level = inf.check_method(opt.surrogate, inputs, design.pairs)
-        options, notes = inf.method_options(opt.surrogate, pipe, design, opt.n_surrogates, opt.min_shift_s)
+        options, notes, plan = inf.method_options(opt.surrogate, pipe, design, opt.n_surrogates, opt.min_shift_s,
+                                                  all_shifts=all_shifts)
         method_warn = _method_warnings(opt.surrogate, pipe, options)
-        null = inf.null_distribution(pipe, design.family, opt.surrogate, opt.n_surrogates, opt.seed, options=options,
-                                     batch_size=opt.batch_size, memory_mb=opt.memory_mb, executor=executor,
-                                     n_jobs=opt.n_jobs, progress=opt.progress)
+        if plan is not None and plan.exact:
+            null = inf.exact_shift_null(plan, design, pipe.span_n)
+        else:
+            null = inf.null_distribution(pipe, design.family, opt.surrogate, opt.n_surrogates, opt.seed,
+                                         options=options, batch_size=opt.batch_size, memory_mb=opt.memory_mb,
+                                         executor=executor, n_jobs=opt.n_jobs, progress=opt.progress)
     pref, ncyc = design.row_summaries(pipe.data)
     test = inf.test_family(observed, null, design, opt.correction, opt.alpha, n_cycles=ncyc)
     chosen = inf.choose_ratios(design, pipe.data, observed, test, alpha=opt.alpha,
@@ -197,18 +209,19 @@ def analyze(
     table = build_table(
         design, recording=inputs.recording, time_s=pipe.time_s, fs=pipe.inputs.fs, observed=observed, test=test,
         ratios=chosen, intervals=intervals, preferred_phase=pref, n_cycles=ncyc,
-        row_warnings=_row_warnings(design, diags, method_warn, ncyc, test, opt.n_surrogates),
-        surrogate=opt.surrogate, n_surrogates=opt.n_surrogates, alpha=opt.alpha, ci_level=opt.ci_level,
+        row_warnings=_row_warnings(design, diags, method_warn, ncyc, test, opt.n_surrogates, plan),
+        surrogate=opt.surrogate, n_surrogates=0 if null is None else null.shape[0], alpha=opt.alpha, ci_level=opt.ci_level,
         ci_method=opt.ci_method, n_bootstrap=opt.n_bootstrap, null_level=level,
     )
-    for w in dict.fromkeys(sum(method_warn.values(), [])):
+    shift_warn = [plan.row_warning(i) for i in range(len(design.rows))] if plan is not None else []
+    for w in dict.fromkeys(sum(method_warn.values(), []) + [w for w in shift_warn if w]):
         warnings.warn(w, SyncstatsWarning, stacklevel=2)
     lead = [f"null: {opt.surrogate} {LEVEL_NOTES[level]}"] if null is not None else [
         "no surrogates drawn: measures only, no test"]
     return AnalysisResult(
         table=table,
         diagnostics=_diagnostics_frame(diags, pipe.inputs),
-        params=_params(opt, inputs, pipe, design, options, level, ratios, started),
+        params=_params(opt, inputs, pipe, design, options, level, ratios, started, plan),
         null_distribution=None if null is None else np.ascontiguousarray(null.T),
         phase_differences=design.psi_samples(pipe.data),
         phases={n: pipe.data[n][0] for n in inputs.names},
@@ -231,7 +244,7 @@ def _method_warnings(method, pipe, options):
     return {n: w for n, w in out.items() if w}
 
 
-def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates):
+def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates, plan=None):
     by_name = {d.signal: list(d.warnings) for d in diags}
     out = []
     for i, r in enumerate(design.rows):
@@ -242,6 +255,8 @@ def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates):
             wl.append(f"only {n_cycles[i]:.1f} cycles of the slower rhythm in this window")
         if test.few_surrogates[i]:
             wl.append(f"too few surrogates for the family ({n_surrogates})")
+        if plan is not None and plan.row_warning(i):
+            wl.append(plan.row_warning(i))
         out.append(wl)
     return out
 
@@ -264,7 +279,7 @@ def _diagnostics_frame(diags, inputs):
     ])
 
 
-def _params(opt, inputs, pipe, design, options, level, ratios_requested, started):
+def _params(opt, inputs, pipe, design, options, level, ratios_requested, started, plan=None):
     fs, t = pipe.inputs.fs, pipe.time_s
     return {
         "fs": inputs.fs,
@@ -293,6 +308,7 @@ def _params(opt, inputs, pipe, design, options, level, ratios_requested, started
         "span_s": [float(t[0]), float(t[-1] + 1 / fs)],
         "n_trials": inputs.n_trials,
         "min_shift_s": options["min_shift"] / fs if "min_shift" in options else None,
+        "all_shifts": None if plan is None else plan.exact,
         "ci_level": opt.ci_level,
         "ci_method": opt.ci_method,
         "n_bootstrap": opt.n_bootstrap,

@@ -9,7 +9,8 @@ from ._bootstrap import CI_METHODS, Interval, RowIntervals, angle_ci, block_ci, 
 from ._circular import rayleigh_test
 from ._design import MIN_CYCLES, Design, make_design
 from ._family import Family, Row
-from ._nulls import NullJob, check_method, method_options, null_distribution
+from ._nulls import (NullJob, ShiftPlan, check_method, exact_shift_null, method_options,
+                     null_distribution, shift_plan)
 from ._pvalues import (CORRECTION_METHODS, CORRECTIONS, Correction, adjust, max_stat_adjust, min_surrogates,
                        surrogate_pvalue)
 from ._ratios import RatioChoice, choose_ratios
@@ -26,6 +27,9 @@ __all__ = [
     "Interval",
     "MIN_CYCLES",
     "NullJob",
+    "ShiftPlan",
+    "exact_shift_null",
+    "shift_plan",
     "RatioChoice",
     "Row",
     "RowIntervals",

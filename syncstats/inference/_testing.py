@@ -49,6 +49,7 @@ def test_family(observed, null, design, correction: str, alpha: float, n_cycles=
         sd_fn = MEASURE_METHODS[m].chance_sd
         floor = sd_fn(np.asarray(n_cycles)[idx]) if (sd_fn is not None and n_cycles is not None) else None
         p_adj[idx] = adjust(p_val[idx], correction, observed=observed[idx], null=null[:, idx], floor=floor)
+        p_adj[idx] = np.maximum(p_adj[idx], p_val[idx])
         txt = design.describe(m)
         for i in idx:
             fam[i] = txt

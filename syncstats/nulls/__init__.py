@@ -12,7 +12,7 @@ from ._endpoints import match_endpoints
 from ._events import interval_shuffle, trial_shuffle
 from ._fourier import aaft, fourier, iaaft, multivariate_fourier
 from ._registry import LEVEL_NOTES, LEVELS, SURROGATE_METHODS, SurrogateMethod
-from ._shift import shift_phase, time_shift, time_shift_plv_all
+from ._shift import curve_correlation_length, shift_curve, shift_phase, time_shift, time_shift_plv_all
 from ._twin import twin
 
 __all__ = [
@@ -23,6 +23,8 @@ __all__ = [
     "time_shift",
     "time_shift_plv_all",
     "shift_phase",
+    "shift_curve",
+    "curve_correlation_length",
     "twin",
     "interval_shuffle",
     "trial_shuffle",

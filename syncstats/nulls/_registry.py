@@ -144,22 +144,6 @@ def _warn_spiky(name, *, raw=None, phase=None, events=None, options=None):
     return []
 
 
-def _warn_predictable(name, *, raw=None, phase=None, events=None, options=None):
-    if phase is None:
-        return []
-    ms = options["min_shift"]
-    ph = np.asarray(phase)[0]
-    if ph.size > ms + 1:
-        d = ph[ms:] - ph[:-ms]
-        c = float(np.abs(np.mean(np.exp(1j * (d - d.mean())))))
-        if c > 0.5:
-            return [
-                f"{name}: rhythm so regular that its phase is predictable across the minimum shift (coherence "
-                f"{c:.2f}), so time_shift has little power"
-            ]
-    return []
-
-
 def _warn_serial(name, *, raw=None, phase=None, events=None, options=None):
     if events is None or len(events) <= 30:
         return []
@@ -226,16 +210,15 @@ _ENTRIES = (
     ),
     SurrogateMethod(
         "time_shift", time_shift, "phase", "phase", "all_but_first", time_shift, "time-shifted",
-        "time-shift surrogates (every rhythm but the first shifted circularly against the first by at least the "
-        "minimum shift, with a phase-continuous joint)",
+        "time-shift surrogates (every rhythm but the first shifted circularly against the first, with a "
+        "phase-continuous joint; by default over the whole circular group of shifts, an exact permutation test)",
         "Each signal keeps its whole own dynamics, and the alignment between the signals is arbitrary (independence "
         "up to a time shift).",
         "Very regular or strictly periodic rhythms (or a common periodic drive) give almost the same alignment at "
         "every shift, so the null is weak; rates that change between epochs are carried across by a shift "
-        "(non-stationarity breaks it); weakly diffusing oscillators showed a mild excess of false positives "
-        "(pooled FPR about 0.07 at alpha 0.05, docs/validation.md); short records allow few shifts.",
+        "(non-stationarity breaks it); short records and slowly varying shift curves leave few effectively "
+        "independent shifts (the notes count them).",
         ("Hurtado JM, et al. (2004). J Neurophysiol 91:1883–1898.",), options=("min_shift",),
-        warn=_warn_predictable,
     ),
     SurrogateMethod(
         "twin", twin, "signal", "signal", "all", twin, "twin",

@@ -20,6 +20,10 @@ DELIBERATE = {
     "checked column by column when rewritten)",
     "group_max_stat": "p_adjusted only: the max-statistic floors each null spread at the measure's chance spread "
     "for the row's cycles (PLV, PPC), so a collapsed null spread no longer inflates z",
+    "pair_time_shift, phases_time_shift, windows_time_shift": "inference columns only: time_shift now runs "
+    "over the whole circular group of shifts (minimum shift one sample; excluding the observed alignment's "
+    "neighbourhood inflated the false-positive rate), exactly over every shift for two rhythms and "
+    "whole-record PLV rows",
 }
 
 
