@@ -58,6 +58,8 @@ COLUMN_SPEC: tuple[Column, ...] = (
     Column("preferred_phase_ci_low", "float64", "rad", "lower end of the interval of the preferred phase (PLV rows)"),
     Column("preferred_phase_ci_high", "float64", "rad", "upper end of the interval of the preferred phase (PLV rows)"),
     Column("null_level", "object", "", "what the surrogates randomised: signal, phase or event"),
+    Column("n_eff_cycles", "float64", "cycles", "effectively independent cycles: cycles / the integrated "
+           "autocorrelation time of the cycle-mean phasor (the bootstrap's block length)"),
 )
 
 _N_CONTRACT = [c.name for c in COLUMN_SPEC].index("warnings") + 1
@@ -108,7 +110,14 @@ def build_table(design, *, recording, time_s, fs, observed, test, ratios, interv
                 row_warnings, surrogate, n_surrogates, alpha, ci_level, ci_method, n_bootstrap, null_level):
     """The tidy table from the stages' outputs (arrays aligned with ``design.rows``)."""
     has_inf = n_surrogates > 0
-    ci_txt = f"block bootstrap over whole cycles ({ci_method}, {n_bootstrap} resamples)" if n_bootstrap else ""
+    def ci_txt(r, ci):
+        if not n_bootstrap:
+            return ""
+        what = (f"block bootstrap over blocks of {ci.block_cycles} cycle(s) ({ci_method}, {n_bootstrap} resamples)")
+        if r.measure == "plv":
+            what += (f", shifted by the PLV's finite-sample bias ({ci.bias:.3g}) for {ci.n_eff:.0f} effective cycles: "
+                     "an interval for the PLV long records converge to")
+        return what
     rows = []
     for i, r in enumerate(design.rows):
         mu, sd = float(test.null_mean[i]), float(test.null_sd[i])
@@ -142,11 +151,12 @@ def build_table(design, *, recording, time_s, fs, observed, test, ratios, interv
             "ci_low": ci.value.low,
             "ci_high": ci.value.high,
             "ci_level": float(ci_level) if n_bootstrap else float("nan"),
-            "ci_method": ci_txt,
+            "ci_method": ci_txt(r, ci),
             "warnings": "; ".join(dict.fromkeys(row_warnings[i])),
             "preferred_phase_ci_low": ci.angle.low,
             "preferred_phase_ci_high": ci.angle.high,
             "null_level": null_level if has_inf else "",
+            "n_eff_cycles": float(ci.n_eff),
         })
     return finalize_table(rows)
 

@@ -24,6 +24,8 @@ DELIBERATE = {
     "over the whole circular group of shifts (minimum shift one sample; excluding the observed alignment's "
     "neighbourhood inflated the false-positive rate), exactly over every shift for two rhythms and "
     "whole-record PLV rows",
+    "* (second)": "ci_* columns only: bootstrap blocks of 3 integrated autocorrelation times of the cycle-mean "
+    "phasor, and PLV intervals shifted by the finite-sample bias (an interval for the long-record PLV)",
 }
 
 
