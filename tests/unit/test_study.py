@@ -10,7 +10,7 @@ from syncstats import SyncstatsInputError
 from syncstats.study import (SECOND_LEVEL_COLUMNS, STUDY_OUTPUT_FILES, analyze_study, make_demo_study,
                              read_manifest)
 
-OPTS = dict(surrogate="time_shift", n_surrogates=19, n_bootstrap=0, n_bootstrap_second_level=99, rng=3)
+OPTS = dict(surrogate="time_shift", all_shifts=False, n_surrogates=19, n_bootstrap=0, n_bootstrap_second_level=99, rng=3)
 
 
 @pytest.fixture(scope="module")
