@@ -251,6 +251,8 @@ def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates, plan
         wl = []
         for n in r.members:
             wl += by_name.get(n, []) + method_warn.get(n, [])
+        if design.ratio_warning(r):
+            wl.append(design.ratio_warning(r))
         if n_cycles[i] < inf.MIN_CYCLES:
             wl.append(f"only {n_cycles[i]:.1f} cycles of the slower rhythm in this window")
         if test.few_surrogates[i]:

@@ -129,6 +129,15 @@ CONFIG_KEYS = {
 }
 
 
+def _package_version() -> str:
+    try:
+        from importlib.metadata import version
+
+        return version("syncstats")
+    except Exception:  # pragma: no cover
+        return "0+unknown"
+
+
 def _default(name):
     """The default of an ``analyze`` keyword (the command line never repeats them)."""
     from .api import analyze
@@ -193,6 +202,7 @@ def _build_parser() -> argparse.ArgumentParser:
         "Research software, not a medical device.",
     )
     p.add_argument("--debug", action="store_true", help="show tracebacks (may stand anywhere on the line)")
+    p.add_argument("--version", action="version", version=f"syncstats {_package_version()}")
     sub = p.add_subparsers(dest="command", parser_class=_Parser)
 
     from .inference import CI_METHODS, CORRECTION_METHODS
@@ -481,8 +491,13 @@ def _summary(res, out, quiet):
     if quiet:
         return
     tab = res.table
-    n_sig = int(tab["significant"].fillna(False).astype(bool).sum()) if len(tab) else 0
-    print(f"syncstats: {len(tab)} tests, {n_sig} significant after correction; wrote {out}")
+    if not len(tab) or tab["significant"].isna().all():
+        print(f"syncstats: {len(tab)} value(s) computed, no test made (no surrogates); wrote {out}")
+        return
+    n_sig = int(tab["significant"].fillna(False).astype(bool).sum())
+    n_locked = int(tab["locked"].fillna(False).astype(bool).sum()) if "locked" in tab else n_sig
+    print(f"syncstats: {len(tab)} test(s), {n_sig} significant after correction, {n_locked} at a locking ratio; "
+          f"wrote {out}")
 
 
 def _run_demo(args):

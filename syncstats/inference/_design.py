@@ -52,6 +52,21 @@ class Design:
     def rows(self):
         return self.family.rows
 
+    def ratio_warning(self, row) -> str:
+        """A warning when the row's ratio is far (> 20 %) from the measured frequency
+        ratio of the pair: the phase difference then rotates and no locking is possible
+        at that ratio over the whole span."""
+        if row.kind != "pair":
+            return ""
+        fa, fb = self.freqs[row.a], self.freqs[row.b]
+        if not (fa > 0 and fb > 0):
+            return ""
+        measured = fa / fb
+        if abs(row.p / row.q - measured) / measured <= 0.2:
+            return ""
+        return (f"ratio {row.p}:{row.q} is far from the measured frequency ratio {measured:.3g} ({row.a} "
+                f"{fa:.3g} Hz, {row.b} {fb:.3g} Hz), so psi rotates and no lock is possible at it over the span")
+
     def describe(self, measure: str) -> str:
         """The family of one measure in words (the ``family`` column)."""
         idx = [r for r in self.rows if r.measure == measure]
@@ -172,7 +187,11 @@ def _ratio_map(ratios, pair_list, pairs_given, names, kinds, freqs, has_pair_mea
     for a, b in pair_list:
         rr = per_pair[(a, b)]
         if isinstance(rr, str) and rr.strip() == "auto":
-            out[(a, b)] = tuple(M.auto_ratios(freqs[a], freqs[b]))
+            # scanned on (faster, slower) so the family does not depend on the pair's order
+            if freqs[a] >= freqs[b]:
+                out[(a, b)] = tuple(M.auto_ratios(freqs[a], freqs[b]))
+            else:
+                out[(a, b)] = tuple((p, q) for q, p in M.auto_ratios(freqs[b], freqs[a]))
         else:
             out[(a, b)] = tuple(parse_ratios(rr))
     return out

@@ -26,6 +26,7 @@ DELIBERATE = {
     "whole-record PLV rows",
     "* (second)": "ci_* columns only: bootstrap blocks of 3 integrated autocorrelation times of the cycle-mean "
     "phasor, and PLV intervals shifted by the finite-sample bias (an interval for the long-record PLV)",
+    "* (third)": "warnings only: a row whose ratio is more than 20 % from the measured frequency ratio says so",
 }
 
 
