@@ -36,7 +36,8 @@ examples:
 EXAMPLES_SIMULATE = """\
 examples:
   syncstats simulate --kind stuart_landau --coupled --duration 300 --fs 100 --seed 3 --out sim-locked
-  syncstats simulate --kind beats --ratio 4:1 --seed 2 --out sim-beats
+  syncstats simulate --kind beats --coupled --ratio 4:1 --seed 2 --out sim-beats
+  syncstats simulate --kind phase --ratio 3:1 --detuning 0.05 --noise 0.3 --seed 4 --out sim-independent
 """
 
 def _str(v, key):
@@ -298,7 +299,12 @@ def _build_parser() -> argparse.ArgumentParser:
                        description="Simulate coupled or independent rhythms and write recording.csv, events and truth.json.")
     s.add_argument("--kind", default="stuart_landau", help="phase, stuart_landau, van_der_pol, spiking, beats, quasi_periodic, rossler, damped_noise")
     s.add_argument("--coupled", action="store_true", help="couple the units (default: independent)")
-    s.add_argument("--ratio", default="1:1", help="p:q locking ratio for coupled units")
+    s.add_argument("--ratio", default="1:1", help="p:q: the units' frequencies are near this ratio (locked at it "
+                   "with --coupled, independent near it without)")
+    s.add_argument("--freq", type=float, help="frequency of the slower unit, Hz (default: the kind's own)")
+    s.add_argument("--detuning", type=float, help="relative detuning from the exact ratio (default: the kind's own)")
+    s.add_argument("--noise", type=float, help="intrinsic noise, in the kind's simulator units (default: the kind's own)")
+    s.add_argument("--coupling", type=float, help="coupling strength with --coupled (default: twice what locks)")
     s.add_argument("--duration", type=float, default=300.0, help="seconds")
     s.add_argument("--fs", type=float, default=100.0, help="sampling rate, Hz")
     s.add_argument("--seed", type=int, default=0)
@@ -518,7 +524,8 @@ def _run_simulate(args):
 
     out = write_scenario(
         args.out, kind=args.kind, coupled=args.coupled, ratio=args.ratio, duration=args.duration, fs=args.fs,
-        rng=args.seed, overwrite=args.overwrite,
+        rng=args.seed, overwrite=args.overwrite, freq=args.freq, detuning=args.detuning, noise=args.noise,
+        coupling=args.coupling,
     )
     print(f"syncstats: wrote {out}")
     return 0

@@ -75,7 +75,7 @@ def demo_analysis(*, n_surrogates: int = 199, rng=2026, progress=None) -> Analys
 
 
 def write_scenario(out, *, kind="stuart_landau", coupled=False, ratio="1:1", duration=300.0, fs=100.0, rng=0,
-                   overwrite=False) -> Path:
+                   overwrite=False, **scenario_options) -> Path:
     """Simulate a scenario and write ``recording.csv`` (time_s + signals), one event file
     per event train (``events_<name>.txt``) and ``truth.json`` into ``out`` atomically."""
     from ._atomic import write_folder_atomically
@@ -83,7 +83,8 @@ def write_scenario(out, *, kind="stuart_landau", coupled=False, ratio="1:1", dur
     from .io import Recording, write_events, write_recording_csv
     from .simulate import scenario
 
-    sc = scenario(kind, coupled=coupled, ratio=parse_ratio(ratio), duration=duration, fs=fs, rng=rng)
+    sc = scenario(kind, coupled=coupled, ratio=parse_ratio(ratio), duration=duration, fs=fs, rng=rng,
+                  **{k: v for k, v in scenario_options.items() if v is not None})
 
     def build(tmp: Path) -> None:
         write_recording_csv(Recording(name=kind, signals={k: np.asarray(v) for k, v in sc.signals.items()}, fs=sc.fs),

@@ -233,6 +233,8 @@ class PhaseSpec:
     #: Hilbert only: band-pass and analytic signal in the frequency domain (circular
     #: filter with sosfiltfilt's gain |H|^2; see :func:`analytic_from_spectrum`)
     spectral: bool = False
+    #: the band was given by the user (diagnostics then look for the rhythm inside it)
+    band_given: bool = False
 
 
 def estimate_phase(x: np.ndarray, fs: float, spec: PhaseSpec) -> tuple[np.ndarray, np.ndarray]:
@@ -283,7 +285,8 @@ def diagnose(name: str, x, fs: float, phase: np.ndarray, amplitude, *, spec: Pha
     if kind == "events" or x is None:
         f0, sharp = float("nan"), float("nan")
     else:
-        f0, sharp = spectral_peak(x, fs)
+        given = spec is not None and spec.band is not None and spec.band_given
+        f0, sharp = spectral_peak(x, fs, band=spec.band if given else None)
     ph = phase[np.isfinite(phase)]
     steps = np.diff(ph)
     back = float(np.mean(steps < 0)) if steps.size else 0.0

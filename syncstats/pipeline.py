@@ -65,6 +65,7 @@ def _fix_spec(name, x, fs, method, band, protophase, spectral=False):
     if method not in ("hilbert", "wavelet"):
         raise SyncstatsInputError(f"phase_method for '{name}' must be 'hilbert' or 'wavelet', got {method!r}.")
     x0 = x.mean(axis=0)
+    given = band is not None and not (isinstance(band, str) and band == "auto")
     if isinstance(band, str) and band == "auto":
         try:
             band = auto_band(x0, fs)
@@ -79,7 +80,7 @@ def _fix_spec(name, x, fs, method, band, protophase, spectral=False):
         freq = float(np.sqrt(band[0] * band[1])) if band is not None else spectral_peak(x0, fs)[0]
         band = None
     return PhaseSpec(method=method, band=band, freq=freq, protophase_correction=bool(protophase),
-                     spectral=bool(spectral) and method == "hilbert")
+                     spectral=bool(spectral) and method == "hilbert", band_given=given)
 
 
 def _top_freq(inputs, specs) -> float:

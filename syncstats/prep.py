@@ -113,7 +113,8 @@ def decimate(x: np.ndarray, q: int) -> np.ndarray:
     return sps.resample_poly(x, 1, int(q), axis=-1, padtype="line")
 
 
-def spectral_peak(x: np.ndarray, fs: float, *, fmin: float | None = None) -> tuple[float, float]:
+def spectral_peak(x: np.ndarray, fs: float, *, fmin: float | None = None,
+                  band: tuple[float, float] | None = None) -> tuple[float, float]:
     """Dominant frequency and peak sharpness of a 1-D signal (Welch periodogram).
 
     Returns
@@ -126,6 +127,9 @@ def spectral_peak(x: np.ndarray, fs: float, *, fmin: float | None = None) -> tup
         the share a flat spectrum would put there, rescaled to [0, 1]:
         ``(share − width)/(1 − width)`` with ``width`` the fraction of the frequency axis
         inside ``f0 ± 20 %``. Near 1 for a narrow-band rhythm, near 0 for white noise.
+
+    With ``band`` = (low, high) Hz only that band counts (the peak and the power shares
+    are taken inside it): is there a rhythm in the band the user chose?
     """
     x = np.asarray(x, dtype=float)
     n = x.shape[-1]
@@ -133,6 +137,8 @@ def spectral_peak(x: np.ndarray, fs: float, *, fmin: float | None = None) -> tup
     f, pxx = sps.welch(x - x.mean(), fs=fs, nperseg=nper, detrend="linear")
     fmin = 2.0 * fs / n if fmin is None else fmin
     keep = f > max(fmin, f[1] if len(f) > 1 else 0)
+    if band is not None:
+        keep &= (f >= band[0]) & (f <= band[1])
     if not np.any(keep) or not np.any(pxx[keep] > 0):
         return float("nan"), 0.0
     fk, pk = f[keep], pxx[keep]

@@ -389,26 +389,27 @@ def _plan(kind, coupled, ratio, duration, fs, freq, detuning, coupling, directio
 
 def _describe(kind, names, fa, fb, p, q, K, direction, units, truth, noise, meas, opts):
     what = {
-        "phase": "noisy phase oscillators (sine coupling)",
-        "stuart_landau": "noisy Stuart-Landau oscillators (weakly nonlinear limit cycles)",
-        "van_der_pol": f"noisy van der Pol relaxation oscillators (mu = {opts.get('mu')})",
-        "spiking": "noisy FitzHugh-Nagumo units firing periodically (spike-like)",
-        "beats": "a heartbeat-like pacemaker (events + ECG-like trace) and a "
+        "phase": "Two noisy phase oscillators (sine coupling)",
+        "stuart_landau": "Two noisy Stuart-Landau oscillators (weakly nonlinear limit cycles)",
+        "van_der_pol": f"Two noisy van der Pol relaxation oscillators (mu = {opts.get('mu')})",
+        "spiking": "Two noisy FitzHugh-Nagumo units firing periodically (spike-like)",
+        "beats": "A heartbeat-like pacemaker (events + ECG-like trace) and a "
                  "breathing-like rhythm with respiratory heart-rate modulation",
-        "quasi_periodic": "quasi-periodic units (two incommensurate internal "
+        "quasi_periodic": "Two quasi-periodic units (two incommensurate internal "
                           "frequencies, golden-mean ratio)",
-        "rossler": "Roessler oscillators in the phase-coherent chaotic regime",
-        "damped_noise": "noise-driven damped linear oscillators (narrow-band noise, "
+        "rossler": "Two Roessler oscillators in the phase-coherent chaotic regime",
+        "damped_noise": "Two noise-driven damped linear oscillators (narrow-band noise, "
                         "NOT self-sustained)",
     }[kind]
     arrow = {"mutual": "mutually", "b_to_a": f"one-way ({names[1]} -> {names[0]})",
              "a_to_b": f"one-way ({names[0]} -> {names[1]})"}[direction]
     cpl = ("independent (no coupling)" if K == 0 else
            f"{arrow} coupled with strength {K:.4g} {units}")
-    lab = ("LOCKED at %d:%d (%s completes %d cycles while %s completes %d)"
-           % (p, q, names[0], p, names[1], q) if truth["locked"] else "NOT locked")
+    cyc = lambda k: f"{k} cycle{'s' if k != 1 else ''}"  # noqa: E731
+    lab = (f"LOCKED at {p}:{q} ({names[0]} completes {cyc(p)} while {names[1]} completes {cyc(q)})"
+           if truth["locked"] else "NOT locked")
     nz = "default (unit-SD output)" if noise is None else f"{noise:g}"
-    return (f"Two {what}: {names[0]} at {fa:.4g} Hz and {names[1]} at {fb:.4g} Hz "
+    return (f"{what}: {names[0]} at {fa:.4g} Hz and {names[1]} at {fb:.4g} Hz "
             f"(natural frequencies), {cpl}. Intrinsic noise {nz}, measurement noise "
             f"{meas:g} x signal SD. Truth: {lab} (label from {truth['method']}).")
 

@@ -153,3 +153,17 @@ def test_exact_shift_null_equals_the_sampled_shifts(order):
         ph[moved] = shift_phase(pl.data[moved], np.array([s]))[0]
         row = s - plan.min_shift
         np.testing.assert_allclose(null[row], design.family.evaluate(ph), rtol=1e-9, atol=1e-12)
+
+
+def test_diagnostics_look_for_the_rhythm_inside_a_band_the_user_gave():
+    """A strong slow wave outside the chosen 4-8 Hz band must not make the diagnostics
+    report its frequency and call the in-band rhythm 'broad'."""
+    rng = np.random.default_rng(0)
+    t = np.arange(0, 120, 0.01)
+    slow = 3 * np.sin(2 * np.pi * 0.9 * t)
+    sig = {k: slow + np.sin(2 * np.pi * 6 * t + k + np.cumsum(rng.normal(0, 0.02, t.size)))
+           + 0.3 * rng.standard_normal(t.size) for k in (0, 1)}
+    d = syncstats.analyze({"a": sig[0], "b": sig[1]}, fs=100, bands={"a": (4, 8), "b": (4, 8)}, n_surrogates=0,
+                          n_bootstrap=0).diagnostics
+    assert np.allclose(d.dominant_freq_hz, 6.0, atol=0.1) and (d.peak_sharpness > 0.8).all()
+    assert not d.warnings.str.contains("broad").any()
