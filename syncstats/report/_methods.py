@@ -226,8 +226,12 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     para: list[str] = []
 
     n_signals = 0
-    if table is not None and not table.empty:
-        n_signals = len(set(table["signal_a"]) | set(table.loc[table["signal_b"] != "", "signal_b"]))
+    kinds = params.get("kinds") if isinstance(params.get("kinds"), dict) else None
+    if kinds:
+        n_signals = len(kinds)
+    elif table is not None and not table.empty:
+        pairs = table[table["signal_b"] != ""]  # group rows name the group, not a signal
+        n_signals = len(set(pairs["signal_a"]) | set(pairs["signal_b"]))
     fs = params.get("fs")
     head = "Phase synchronization was assessed with syncstats"
     ver = params.get("syncstats_version")

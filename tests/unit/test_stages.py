@@ -167,3 +167,13 @@ def test_diagnostics_look_for_the_rhythm_inside_a_band_the_user_gave():
                           n_bootstrap=0).diagnostics
     assert np.allclose(d.dominant_freq_hz, 6.0, atol=0.1) and (d.peak_sharpness > 0.8).all()
     assert not d.warnings.str.contains("broad").any()
+
+
+def test_methods_count_signals_not_the_group_row():
+    from syncstats.report._methods import methods_text
+
+    rng = np.random.default_rng(0)
+    t = np.arange(0, 60, 0.05)
+    sig = {f"c{k}": np.sin(2 * np.pi * t + k) + 0.3 * rng.standard_normal(t.size) for k in range(4)}
+    r = syncstats.analyze(sig, fs=20, measures=("plv", "order_parameter"), n_surrogates=0, n_bootstrap=0)
+    assert "on 4 signals" in methods_text(r)
