@@ -6,7 +6,7 @@ into words, exactly as the analysis wrote them.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 import pandas as pd
@@ -93,20 +93,55 @@ def _group_name(label: str) -> str:
     return label if "group" in label.lower() else f"group {label}"
 
 
-@dataclass
 class PairSummary:
-    """The rows of one pair (or one group) and the row that best states the finding."""
+    """The rows of one pair (or one group) and the row that best states the finding.
 
-    recording: str
-    signal_a: str
-    signal_b: str
-    rows: pd.DataFrame
-    whole: pd.DataFrame  # rows spanning the whole analysed record
-    windows: pd.DataFrame  # rows of windows inside the record
-    headline: pd.Series | None
-    status: str  # "locked", "inconclusive", "none", "untested", "failed"
-    also_locked: list = field(default_factory=list)  # other ratios with evidence
-    alpha: float | None = None
+    ``rows`` (all rows of the pair), ``whole`` (rows spanning the whole analysed record)
+    and ``windows`` (rows of windows inside it) are cut from the table on first use, so
+    summarising tens of thousands of pairs stays cheap.
+    """
+
+    def __init__(self, recording, signal_a, signal_b, table, idx, whole_idx, win_idx, headline, status,
+                 also_locked=None, alpha=None):
+        self.recording, self.signal_a, self.signal_b = recording, signal_a, signal_b
+        self._table, self._idx, self._whole_idx, self._win_idx = table, idx, whole_idx, win_idx
+        self.headline: pd.Series | None = headline
+        self.status: str = status  # "locked", "dependent", "inconclusive", "none", "untested", "failed"
+        self.also_locked: list = list(also_locked or [])  # other significant ratios
+        self.alpha: float | None = alpha
+
+    @property
+    def has_whole(self) -> bool:
+        return len(self._whole_idx) > 0
+
+    @property
+    def has_windows(self) -> bool:
+        return len(self._win_idx) > 0
+
+    @property
+    def ratios(self) -> list:
+        """Ratios tested for the pair, in table order."""
+        return list(dict.fromkeys(self._table["ratio"].to_numpy()[self._idx].tolist()))
+
+    @property
+    def whole_positions(self):
+        return self._table.index[self._whole_idx]
+
+    @property
+    def window_positions(self):
+        return self._table.index[self._win_idx]
+
+    @cached_property
+    def rows(self) -> pd.DataFrame:
+        return self._table.iloc[self._idx]
+
+    @cached_property
+    def whole(self) -> pd.DataFrame:
+        return self._table.iloc[self._whole_idx]
+
+    @cached_property
+    def windows(self) -> pd.DataFrame:
+        return self._table.iloc[self._win_idx]
 
     @property
     def is_group(self) -> bool:
@@ -220,23 +255,43 @@ def _at_resolution_floor(row, table=None, alpha=None) -> bool:
 
 
 def summarize_pairs(table: pd.DataFrame, params: dict) -> list[PairSummary]:
-    """One summary per (recording, signal_a, signal_b), in table order."""
+    """One summary per (recording, signal_a, signal_b), in table order.
+
+    The ranking key is computed once for the whole table (a report of 200 signals has
+    about 20 000 pairs); the headline of a pair is the first row of its ranking.
+    """
     if table is None or table.empty:
         return []
     morder = measure_order(table, params)
     alpha = params.get("alpha") if isinstance(params, dict) else None
+    key = _rank_key(table, morder)
+    order_cols = ["not_locked", "not_sig", "padj", "praw", "mrank", "nege", "negv"]
+    rank = np.empty(len(table), dtype=np.int64)
+    rank[np.lexsort([key[c].to_numpy() for c in reversed(order_cols)])] = np.arange(len(table))
+    has_windows = bool(table.groupby(["recording", "signal_a", "signal_b", "ratio", "measure"], sort=False,
+                                     dropna=False).size().max() > 1)
+    sig_all = table["significant"].map(_truthy).to_numpy(bool)
+    value_ok = table["value"].notna().to_numpy()
+    tested_all = (table["p_adjusted"].notna() | table["p_value"].notna()).to_numpy()
+    ratio_all = table["ratio"].to_numpy()
     out = []
-    groups = table.groupby(["recording", "signal_a", "signal_b"], sort=False, dropna=False)
-    for (rec, a, b), rows in groups:
-        whole, windows = _split_windows(rows)
-        cand = whole if not whole.empty else windows
-        valid = cand[cand["value"].notna()]
-        if valid.empty:
+    groups = table.groupby(["recording", "signal_a", "signal_b"], sort=False, dropna=False).indices
+    positions = pd.Series(np.arange(len(table)), index=table.index)
+    for (rec, a, b), idx in groups.items():
+        idx = np.sort(idx)
+        if has_windows:
+            whole, windows = _split_windows(table.iloc[idx])
+            whole_idx = positions.loc[whole.index].to_numpy()
+            win_idx = positions.loc[windows.index].to_numpy()
+        else:
+            whole_idx, win_idx = idx, idx[:0]
+        cpos = whole_idx if whole_idx.size else win_idx
+        valid = cpos[value_ok[cpos]]
+        if valid.size == 0:
             head, status = None, "failed"
         else:
-            head = best_row(valid, morder)
-            tested = valid["p_adjusted"].notna().any() or valid["p_value"].notna().any()
-            if not tested:
+            head = table.iloc[valid[np.argmin(rank[valid])]]
+            if not tested_all[valid].any():
                 status = "untested"
             elif _is_locked(head):
                 status = "locked"
@@ -246,12 +301,10 @@ def summarize_pairs(table: pd.DataFrame, params: dict) -> list[PairSummary]:
                 status = "inconclusive"
         also = []
         if status in ("locked", "dependent"):  # significant but not the locking ratio
-            sig = cand[cand["significant"].map(_truthy)]
-            also = [r for r in dict.fromkeys(sig["ratio"].tolist()) if r != head["ratio"]]
-        out.append(
-            PairSummary(str(rec), str(a), str(b), rows, whole, windows, head, status, also,
-                        None if alpha is None else float(alpha))
-        )
+            sig = cpos[sig_all[cpos]]
+            also = [r for r in dict.fromkeys(ratio_all[sig].tolist()) if r != head["ratio"]]
+        out.append(PairSummary(str(rec), str(a), str(b), table, idx, whole_idx, win_idx, head, status, also,
+                               None if alpha is None else float(alpha)))
     return out
 
 
@@ -310,7 +363,7 @@ def verdict(s: PairSummary) -> tuple[str, str, str]:
     if s.status == "failed" or h is None:
         return "not computed", who, "no value could be computed (see the warnings below)."
     win_txt = ""
-    if s.whole.empty and not s.windows.empty:
+    if not s.has_whole and s.has_windows:
         w = s.windows[s.windows["ratio"] == h["ratio"]]
         w = w[w["measure"] == h["measure"]]
         n_sig = int(w["significant"].map(_truthy).sum())
@@ -343,7 +396,7 @@ def verdict(s: PairSummary) -> tuple[str, str, str]:
             "surrogates cannot give a smaller p-value; run again with more surrogates."
         )
     if s.status == "none":
-        ratios = list(dict.fromkeys(s.rows["ratio"].tolist()))
+        ratios = s.ratios
         tested = f" at the ratio{'s' if len(ratios) > 1 else ''} tested ({', '.join(ratios)})" if ratios and ratios != [""] else ""
         at_r = f" at {h['ratio']}" if ratio_txt and len(ratios) > 1 else ""
         clause = _stat_clause(h, at=at_r)

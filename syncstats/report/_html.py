@@ -193,9 +193,14 @@ def _ratio_block(summaries: list[PairSummary]) -> str:
         h = s.headline
         if h is not None and int(h["p"]) != int(h["q"]) and h["ratio"] not in examples:
             examples[h["ratio"]] = (s, int(h["p"]), int(h["q"]))
-    for s in ordered:
-        for r, p, q in s.rows[["ratio", "p", "q"]].drop_duplicates().itertuples(index=False):
-            if int(p) != int(q) and r not in examples:
+    by_key = {s.key: s for s in ordered}
+    if ordered:
+        tab = ordered[0]._table
+        pos = np.concatenate([s._idx for s in ordered])
+        firsts = tab.iloc[pos].drop_duplicates("ratio")
+        for rec, a, b, r, p, q in firsts[["recording", "signal_a", "signal_b", "ratio", "p", "q"]].itertuples(index=False):
+            s = by_key.get((rec, a, b))
+            if s is not None and int(p) != int(q) and r not in examples:
                 examples[r] = (s, int(p), int(q))
     lines = [
         f"<li><b>{esc(r)}</b>, e.g. for {esc(s.signal_a)} and {esc(s.signal_b)}: "
@@ -309,8 +314,8 @@ def _results_table(table: pd.DataFrame, summaries: list[PairSummary]) -> str:
         return "<p>No rows.</p>"
     show_rec = bool((table["recording"].astype(str) != "").any())
     show_measure = table["measure"].nunique() > 1
-    whole_idx = [i for s in summaries for i in s.whole.index]
-    win_idx = [i for s in summaries for i in s.windows.index]
+    whole_idx = [i for s in summaries for i in s.whole_positions]
+    win_idx = [i for s in summaries for i in s.window_positions]
     first = table.iloc[0]
     lvl = fmt_level(first["ci_level"])
     legend = ("<p class=\"small\">Rounded for reading; results.csv holds every column at full "
