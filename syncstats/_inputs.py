@@ -53,15 +53,16 @@ def _from_frame(df: pd.DataFrame, fs):
 
 def _signal_arrays(signals, fs):
     """-> (dict name -> (T, N) array, fs, recording name, sources, events)."""
-    rec_name, sources, events = "", (), {}
+    rec_name, sources, events, offset = "", (), {}, 0.0
     if signals is not None and hasattr(signals, "signals") and hasattr(signals, "events"):  # a Recording
         rec = signals
-        rec_name, events = rec.name, dict(rec.events)
+        offset = float(getattr(rec, "offset_s", 0.0) or 0.0)
+        rec_name, events = rec.name, {k: np.asarray(v, dtype=float) + offset for k, v in rec.events.items()}
         sources = (rec.source,) if getattr(rec, "source", "") else ()
         fs = rec.fs if fs is None else fs
         signals = dict(rec.signals)
     if signals is None:
-        return {}, fs, rec_name, sources, events
+        return {}, fs, rec_name, sources, events, offset
     if isinstance(signals, pd.DataFrame):
         signals, fs = _from_frame(signals, fs)
     elif isinstance(signals, np.ndarray) or (isinstance(signals, (list, tuple)) and not isinstance(signals, Mapping)):
@@ -99,12 +100,12 @@ def _signal_arrays(signals, fs):
         if np.all(np.ptp(a, axis=-1) == 0):
             raise SyncstatsInputError(f"signal '{name}' is constant; a phase needs an oscillating signal.")
         out[name] = a
-    return out, fs, rec_name, sources, events
+    return out, fs, rec_name, sources, events, offset
 
 
 def collect_inputs(signals, fs, events=None, phases=None, recording=None) -> Inputs:
     """Check every input and put them on one grid (copies: inputs are never modified)."""
-    raw, fs, rec_name, sources, rec_events = _signal_arrays(signals, fs)
+    raw, fs, rec_name, sources, rec_events, offset = _signal_arrays(signals, fs)
     ev_in = dict(rec_events)
     if events is not None and not isinstance(events, Mapping):
         raise SyncstatsInputError(f"events must be a mapping name -> event times (s); got {type(events).__name__}.")
@@ -140,7 +141,7 @@ def collect_inputs(signals, fs, events=None, phases=None, recording=None) -> Inp
     if raw or ph_in:
         fs = check_fs(fs, hint="give the sampling rate, or signals with a time index")
         n_trials, n_samp = next(iter(lengths.values()))
-        t = np.arange(n_samp) / fs
+        t = offset + np.arange(n_samp) / fs  # file time (a segment of a file starts at its offset)
     else:
         if fs is None:
             rate = max(len(e) / (e[-1] - e[0]) for e in evs.values())

@@ -332,12 +332,16 @@ def _version():
         return "0+unknown"
 
 
-def combine_results(results) -> AnalysisResult:
-    """One result from the analyses of several recordings (or gap-free segments).
+def combine_results(results, *, correct_across: bool = True) -> AnalysisResult:
+    """One result from the analyses of several recordings (or gap-free segments of one file).
 
-    Tables and diagnostics are stacked (diagnostics get a ``recording`` column); each
-    recording keeps its own correction family. Figures data (phase differences, phases,
-    events) come from the longest recording, which the notes name.
+    Tables and diagnostics are stacked (diagnostics get a ``recording`` column). With
+    ``correct_across`` (default) the correction family spans every recording: for each
+    measure the p-values of all rows are corrected together with the run's correction
+    (the max-statistic pairs surrogate b of every recording, valid because the
+    recordings' surrogates are independent), and ``significant`` / ``locked`` follow.
+    Figure data (phase differences, phases, events) come from the longest recording,
+    which the notes name.
     """
     results = list(results)
     if not results:
@@ -356,17 +360,54 @@ def combine_results(results) -> AnalysisResult:
     longest = max(results, key=lambda r: 0 if r.time_s is None else len(r.time_s))
     rec_long = longest.table["recording"].iloc[0] if len(longest.table) else ""
     notes = list(dict.fromkeys(sum((list(r.notes) for r in results), [])))
-    notes.append(f"{len(results)} recordings analysed separately; figures show '{rec_long}', the longest")
+    table = finalize_table(pd.concat(tables, ignore_index=True).to_dict("records"))
+    if correct_across and len(results) > 1:
+        table, note = _correct_across(table, null, longest.params)
+        if note:
+            notes.append(note)
+    notes.append(f"{len(results)} recordings analysed; figures show '{rec_long}', the longest")
     params = dict(longest.params)
     params["recordings"] = [r.table["recording"].iloc[0] if len(r.table) else "" for r in results]
     params["started_at"] = min(r.params["started_at"] for r in results)
     params["finished_at"] = max(r.params["finished_at"] for r in results)
     return replace(
         longest,
-        table=finalize_table(pd.concat(tables, ignore_index=True).to_dict("records")),
+        table=table,
         diagnostics=pd.concat(diags, ignore_index=True),
         params=params,
         null_distribution=null,
         notes=tuple(notes),
         inputs=tuple(sorted({p for r in results for p in r.inputs})),
     )
+
+
+def _correct_across(table, null, params):
+    """Correct every measure's rows over all recordings together (see combine_results)."""
+    from .measures import MEASURE_METHODS
+
+    tested = table["p_value"].notna()
+    corr = str(params.get("correction") or "")
+    if not tested.any() or corr not in inf.CORRECTION_METHODS:
+        return table, ""
+    alpha = float(params.get("alpha", 0.05))
+    if corr == "max_stat" and (null is None or null.shape[0] != len(table)):
+        return table, ("recordings kept their own max-statistic families (their surrogate counts differ); "
+                       "use a p-value correction to correct across them")
+    t = table.copy()
+    n_rec = t["recording"].nunique()
+    for m, idx in t.groupby("measure", sort=False).indices.items():
+        idx = idx[tested.to_numpy()[idx]]
+        if idx.size == 0:
+            continue
+        sd_fn = MEASURE_METHODS[m].chance_sd if m in MEASURE_METHODS else None
+        floor = sd_fn(t["n_cycles"].to_numpy()[idx]) if sd_fn is not None else None
+        adj = inf.adjust(t["p_value"].to_numpy()[idx], corr, observed=t["value"].to_numpy()[idx],
+                         null=None if null is None else null[idx].T, floor=floor)
+        t.loc[t.index[idx], "p_adjusted"] = np.maximum(adj, t["p_value"].to_numpy()[idx])
+        t.loc[t.index[idx], "family"] = f"{idx.size} tests of {m} across {n_rec} recordings"
+    sig = t["p_adjusted"] < alpha
+    t["significant"] = sig.where(tested, pd.NA).astype("boolean")
+    best = t.groupby(["recording", "signal_a", "signal_b", "window_start_s", "measure"], sort=False)["effect"]
+    selected = t["effect"].eq(best.transform("max")) | best.transform("size").eq(1)
+    t["locked"] = (selected & sig).where(tested, pd.NA).astype("boolean")
+    return t, f"the correction ({corr}) spans all {n_rec} recordings"

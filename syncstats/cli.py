@@ -184,7 +184,8 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
     opt("--batch-size", f"surrogates per batch (memory; results do not change; default {_default('batch_size')})",
         dest="batch_size")
     opt("--jobs", "worker processes (default 1)")
-    opt("--gaps", "at a gap: stop with an error (default) or analyse each gap-free segment", choices=("error", "split"))
+    opt("--gaps", "at a gap: stop with an error (default) or analyse each gap-free segment (times stay file "
+        "times; one correction family spans the segments)", choices=("error", "split"))
     opt("--resample-to", "bring signals of different rates to this rate (Hz)", dest="resample_to")
     opt("--annotation", "EDF+/WFDB annotation to read as events (e.g. R, atr)")
     opt("--time-column", "name of the time column in a table", dest="time_column")

@@ -270,7 +270,7 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
             seg_name = f"{rec_name}#{i}"
             seg_notes.append(
                 f"segment {i} of {len(kept)}: {onset:.6g}-{onset + dur:.6g} s of the file, "
-                "a gap-free piece (gaps are never interpolated); times count from its start"
+                "a gap-free piece (gaps are never interpolated)"
             )
             seg_start = _shift_iso(src.start_time, onset)
         seg_events = {en: et[(et >= onset) & (et < onset + dur)] - onset
@@ -278,7 +278,7 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
         out.append(Recording(
             name=seg_name, signals=sigs, fs=fs_out, units=dict(src.units),
             start_time=seg_start, events=seg_events, source=str(src.path),
-            notes=tuple(seg_notes),
+            notes=tuple(seg_notes), offset_s=0.0 if whole else float(onset),
         ))
     return out
 

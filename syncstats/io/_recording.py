@@ -31,6 +31,9 @@ class Recording:
         Path of the file(s) read ("" for in-memory data).
     notes : tuple of str
         What the reader did that a user should know (resampling, gaps split, ...).
+    offset_s : float
+        Where the recording starts in its file, seconds (a gap-free segment of a longer
+        file starts later than 0); sample i is at ``offset_s + i / fs`` in file time.
     """
 
     name: str
@@ -41,6 +44,7 @@ class Recording:
     events: Mapping[str, np.ndarray] = field(default_factory=dict)
     source: str = ""
     notes: tuple[str, ...] = ()
+    offset_s: float = 0.0
 
     @property
     def duration_s(self) -> float:
