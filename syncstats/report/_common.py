@@ -344,6 +344,36 @@ def _stat_clause(row: pd.Series, *, at: str = "") -> str:
     return ", ".join(parts)
 
 
+def strength_word(row) -> str:
+    """Graded wording from the interval of the value (PLV-like measures in [0, 1]):
+    "strongly" when the lower end reaches 0.7, "moderately" from 0.4, else "weakly"
+    (the value alone at a high p-value floor says little; the interval says how much
+    locking the data can support)."""
+    lo = row.get("ci_low") if hasattr(row, "get") else None
+    v = lo if lo is not None and not is_missing(lo) else row["value"]
+    if is_missing(v) or str(row["measure"]) not in ("plv", "conditional_index", "order_parameter"):
+        return ""
+    v = float(v)
+    return "strongly" if v >= 0.7 else ("moderately" if v >= 0.4 else "weakly")
+
+
+def locked_epochs(s) -> list:
+    """[(ratio, start_s, end_s)]: consecutive windows locked at the same ratio, merged
+    (the headline measure's rows)."""
+    w = s.windows
+    h = s.headline
+    if w.empty or h is None or "locked" not in w:
+        return []
+    w = w[(w["measure"] == h["measure"]) & w["locked"].map(_truthy)].sort_values("window_start_s")
+    out = []
+    for r, a, b in w[["ratio", "window_start_s", "window_end_s"]].itertuples(index=False):
+        if out and out[-1][0] == r and a <= out[-1][2]:
+            out[-1] = (r, out[-1][1], max(out[-1][2], float(b)))
+        else:
+            out.append((r, float(a), float(b)))
+    return out
+
+
 def verdict(s: PairSummary) -> tuple[str, str, str]:
     """(short status label, who, finding) for a pair; the sentence is ``who + ": " + finding``.
 
@@ -375,13 +405,21 @@ def verdict(s: PairSummary) -> tuple[str, str, str]:
         else:
             win_txt = f" in {n_sig} of {len(w)} windows (strongest at {fmt_num(h['window_start_s'], 0)}–{fmt_num(h['window_end_s'], 0)} s)"
     at = f" at {ratio_txt}" if ratio_txt else ""
+    epochs = locked_epochs(s) if (s.status == "locked" and not s.has_whole and s.has_windows) else []
+    if epochs and not s.is_group:
+        spans = "; ".join(f"{r} during {fmt_num(a, 0)}–{fmt_num(b, 0)} s" for r, a, b in epochs)
+        n_win = s.windows[["window_start_s", "window_end_s"]].drop_duplicates().shape[0]
+        return "phase-locked", who, (
+            f"{strength_word(h)} phase-locked at a ratio that changes over time — {spans} "
+            f"(locked windows of {n_win}, merged where consecutive windows lock at the same ratio); strongest: "
+            f"{_stat_clause(h, at=' at ' + str(h['ratio']))}.")
     if s.status == "locked":
         cert = h.get("ratio_certainty") if hasattr(h, "get") else None
         cert_txt = (f"; this ratio had the largest effect in {100 * float(cert):.0f}% of resamples"
                     if cert is not None and not is_missing(cert) else "")
         also = (f"; dependent but not locked at {', '.join(s.also_locked)} (significant, smaller effect)"
                 if s.also_locked else "")
-        return "phase-locked", who, f"phase-locked{at}{win_txt} — {_stat_clause(h)}{cert_txt}{also}."
+        return "phase-locked", who, f"{strength_word(h)} phase-locked{at}{win_txt} — {_stat_clause(h)}{cert_txt}{also}."
     if s.status == "dependent":
         return "dependent", who, (
             f"not independent, but no tested ratio stands out as the locking ratio{win_txt} — significant{at}: "

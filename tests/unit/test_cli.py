@@ -102,7 +102,7 @@ def test_debug_shows_traceback(tmp_path):
 
 def test_demo_writes_all_four_files(tmp_path):
     out = tmp_path / "demo"
-    assert main(["demo", "--out", str(out), "--n-surrogates", "19", "--quiet"]) == 0
+    assert main(["demo", "--out", str(out), "--n-surrogates", "39", "--quiet"]) == 0
     assert sorted(p.name for p in out.iterdir()) == ["methods.md", "provenance.json", "report.html", "results.csv"]
     tab = pd.read_csv(out / "results.csv")
     hb = tab[(tab.signal_a == "heart") & (tab.signal_b == "breath")]
@@ -111,7 +111,18 @@ def test_demo_writes_all_four_files(tmp_path):
     later = hb[(hb.window_start_s >= 315) & (hb.window_end_s <= 450) & (hb.ratio == "3:1")]
     assert len(first) == 1 and len(later) == 1
     assert first.value.iloc[0] > 0.7 and later.value.iloc[0] > 0.7
-    assert "research software" in (out / "report.html").read_text().lower()
+    page = (out / "report.html").read_text()
+    assert "research software" in page.lower()
+    # the headline states the truth in plain words: 4:1 early, 3:1 later, never both at once
+    import html
+    import re
+
+    text = html.unescape(re.sub(r"<[^>]+>", "", page))
+    found = re.search(r"heart and breath: .*?phase-locked at a ratio that changes over time — 4:1 during "
+                      r"(\d+)–(\d+) s; 3:1 during (\d+)–(\d+) s", text)
+    assert found, "demo headline does not name 4:1 early and 3:1 later"
+    a0, a1, b0, b1 = map(int, found.groups())
+    assert a0 <= 15 + 60 and a1 >= 150 - 60 and b0 <= 315 + 60 and b1 >= 450 - 60 and a1 <= b0
 
 
 def test_gaps_are_refused_or_split_into_recordings(sim_dir, tmp_path, capsys):

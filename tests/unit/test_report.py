@@ -499,7 +499,7 @@ def _one_row_result(**row) -> ResultData:
 
 def test_locked_verdict_reads_as_a_sentence():
     text = "".join(_parse(render_html(_one_row_result())).text)
-    assert ("heart and breath: phase-locked at 4:1 (heart makes 4 cycles while breath makes 1) "
+    assert ("heart and breath: weakly phase-locked at 4:1 (heart makes 4 cycles while breath makes 1) "
             "— PLV 0.41, 95% CI 0.35 to 0.47, corrected p = 0.003 against 999 IAAFT "
             "surrogates.") in text
 
