@@ -195,6 +195,8 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
     opt("--out", "output folder (must not exist or be empty)", required=True)
     opt("--overwrite", "replace an existing output folder", action="store_true")
     opt("--quiet", "no progress bar", action="store_true")
+    opt("--json", "print a machine-readable summary (JSON) on stdout instead of the summary line",
+        action="store_true")
 
 
 def _build_parser() -> argparse.ArgumentParser:
@@ -291,9 +293,10 @@ def _build_parser() -> argparse.ArgumentParser:
                        description="Analyse the bundled demo study (simulated) and write the four output files.")
     d.add_argument("--out", required=True, help="output folder")
     d.add_argument("--n-surrogates", type=int, dest="n_surrogates", default=199, help="surrogates (default 199)")
-    d.add_argument("--seed", type=int, default=2026)
-    d.add_argument("--overwrite", action="store_true")
-    d.add_argument("--quiet", action="store_true")
+    d.add_argument("--seed", type=int, default=2026, help="seed for every random draw (default 2026)")
+    d.add_argument("--overwrite", action="store_true", help="replace an existing output folder")
+    d.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
+    d.add_argument("--json", action="store_true", help="print a machine-readable summary on stdout")
 
     s = sub.add_parser("simulate", help="write a simulated scenario with known truth to files",
                        epilog=EXAMPLES_SIMULATE, formatter_class=argparse.RawDescriptionHelpFormatter,
@@ -442,7 +445,7 @@ def _run_analyze(args):
         params={**res.params, "command": "analyze", "input": str(args.input)},
     )
     out = res.save(args.out, overwrite=args.overwrite)
-    _summary(res, out, args.quiet)
+    _summary(res, out, args.quiet, getattr(args, "json", False))
     return 0
 
 
@@ -494,7 +497,27 @@ def _run_study(args):
     return 3 if res.n_failed else 0
 
 
-def _summary(res, out, quiet):
+def _json_summary(res, out) -> str:
+    """One JSON object: where the files are, the counts, and the rows that lock."""
+    import json
+
+    tab = res.table
+    tested = bool(len(tab)) and not tab["significant"].isna().all()
+    locked = tab[tab["locked"].fillna(False).astype(bool)] if tested else tab.iloc[:0]
+    cols = ["recording", "signal_a", "signal_b", "ratio", "window_start_s", "window_end_s", "measure", "value",
+            "ci_low", "ci_high", "p_adjusted", "ratio_certainty"]
+    rows = [{k: (None if v != v else v) for k, v in r.items()} for r in locked[cols].to_dict("records")]
+    return json.dumps({
+        "out": str(out), "rows": int(len(tab)), "tested": tested,
+        "significant": int(tab["significant"].fillna(False).astype(bool).sum()) if tested else 0,
+        "locked": rows, "notes": list(res.notes),
+    }, default=str)
+
+
+def _summary(res, out, quiet, as_json=False):
+    if as_json:
+        print(_json_summary(res, out))
+        return
     if quiet:
         return
     tab = res.table
@@ -516,7 +539,7 @@ def _run_demo(args):
     finally:
         close()
     out = res.save(args.out, overwrite=args.overwrite)
-    _summary(res, out, args.quiet)
+    _summary(res, out, args.quiet, getattr(args, "json", False))
     return 0
 
 

@@ -169,3 +169,16 @@ def test_analyze_an_edf_recording_with_beat_annotations(tmp_path):
     assert set(tab.signal_a) == {"R"} and set(tab.signal_b) == {"resp"}
     four = tab[tab.ratio == "4:1"].iloc[0]
     assert four.value > 0.8 and four.significant
+
+
+def test_json_summary_on_stdout(sim_dir, tmp_path, capsys):
+    out = tmp_path / "js"
+    assert main(["analyze", str(sim_dir / "recording.csv"), "--surrogate", "fourier", "--n-surrogates", "39",
+                 "--ratios", "1:1,2:1", "--n-bootstrap", "0", "--seed", "1", "--out", str(out), "--json",
+                 "--quiet"]) == 0
+    got = json.loads(capsys.readouterr().out)
+    tab = pd.read_csv(out / "results.csv")
+    assert got["rows"] == len(tab) and got["tested"] is True
+    assert got["significant"] == int(tab.significant.sum())
+    assert [r["ratio"] for r in got["locked"]] == list(tab.ratio[tab.locked == True])  # noqa: E712
+    assert got["locked"] and got["locked"][0]["ratio"] == "1:1"  # the simulated pair locks 1:1
