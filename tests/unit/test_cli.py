@@ -174,7 +174,8 @@ def test_analyze_an_edf_recording_with_beat_annotations(tmp_path):
 def test_json_summary_on_stdout(sim_dir, tmp_path, capsys):
     out = tmp_path / "js"
     assert main(["analyze", str(sim_dir / "recording.csv"), "--surrogate", "fourier", "--n-surrogates", "39",
-                 "--ratios", "1:1,2:1", "--n-bootstrap", "0", "--seed", "1", "--out", str(out), "--json",
+                 "--ratios", "1:1,2:1", "--correction", "max_stat", "--n-bootstrap", "0", "--seed", "1",
+                 "--out", str(out), "--json",
                  "--quiet"]) == 0
     got = json.loads(capsys.readouterr().out)
     tab = pd.read_csv(out / "results.csv")
