@@ -139,14 +139,12 @@ def _panel_phase_difference(ax, s: PairSummary, result, head) -> str | None:
     uniform = 1.0 / n_bins
     th = np.linspace(-np.pi, np.pi, 200)
     ax.plot(th, np.full_like(th, uniform), color=PALETTE["null"], lw=1, ls="--")
-    pref = head["preferred_phase"]
     rmax = share.max() * 1.08
-    if not is_missing(pref):
-        length = rmax
-        if head["measure"] == "plv" and not is_missing(head["value"]):
-            length = rmax * float(np.clip(head["value"], 0, 1))
-        ax.annotate("", xy=(float(pref), length), xytext=(0, 0),
-                    arrowprops=dict(arrowstyle="-|>", color=PALETTE["observed"], lw=2))
+    # the arrow is the mean resultant of the sample drawn (the whole record), so the
+    # rose and the arrow describe the same data (drawing arithmetic, not a new statistic)
+    resultant = np.mean(np.exp(1j * psi))
+    ax.annotate("", xy=(float(np.angle(resultant)), rmax * float(abs(resultant))), xytext=(0, 0),
+                arrowprops=dict(arrowstyle="-|>", color=PALETTE["observed"], lw=2))
     ax.set_ylim(0, rmax)
     ax.set_yticklabels([])
     ax.set_xticks(np.deg2rad([0, 90, 180, 270]))
@@ -155,10 +153,10 @@ def _panel_phase_difference(ax, s: PairSummary, result, head) -> str | None:
     ax.spines["polar"].set_color("#c5ccd3")
     ax.set_title(f"Phase difference ψ at {head['ratio']}", loc="left", pad=14)
     return (
-        f"Phase difference ψ = q·φ_A − p·φ_B at {head['ratio']}, as shares of the record per "
-        "10° sector. A peaked rose means a preferred timing; the dashed circle is what a flat "
-        "(unlocked) distribution would give; the amber arrow points to the preferred phase"
-        + (" and its length is the PLV." if head["measure"] == "plv" else ".")
+        f"Phase difference ψ = q·φ_A − p·φ_B at {head['ratio']} over the whole analysed record, as shares "
+        "per 10° sector. A peaked rose means a preferred timing; the dashed circle is what a flat "
+        "(unlocked) distribution would give; the amber arrow is the mean direction of this whole-record "
+        "sample and its length the whole-record PLV (a window's value can differ)."
     )
 
 
@@ -198,8 +196,9 @@ def _panel_timecourse(ax, s: PairSummary, result, head) -> str | None:
     if w.empty:
         return None
     w = w[w["measure"] == head["measure"]]
-    ratios = list(dict.fromkeys([head["ratio"]] + w["ratio"].tolist()))[:4]
-    colors = [PALETTE["data"], "#7a5aa6", "#3f7fb5", "#8f8a3a"]
+    all_ratios = list(dict.fromkeys([head["ratio"]] + w["ratio"].tolist()))
+    ratios = all_ratios[:8]
+    colors = [PALETTE["data"], "#7a5aa6", "#3f7fb5", "#8f8a3a", "#b5643f", "#3a8f7d", "#8a8a8a", "#5a3a8f"]
     drawn = False
     for r, c in zip(ratios, colors):
         g = w[w["ratio"] == r].sort_values("window_start_s")
@@ -224,13 +223,15 @@ def _panel_timecourse(ax, s: PairSummary, result, head) -> str | None:
     ax.set_xlabel("time (s, window centre)")
     ax.set_ylabel(measure_name(head["measure"]))
     ax.grid(True, axis="y")
-    if len(ratios) > 1:
-        ax.legend(loc="lower right", bbox_to_anchor=(1.0, 1.0), ncol=len(ratios),
-                  handlelength=1.2, columnspacing=0.8, borderaxespad=0.2)
-    ax.set_title("Over time")
+    if len(ratios) > 1:  # beside the axes, never over the title or the lines
+        ax.legend(title="ratio", loc="upper left", bbox_to_anchor=(1.01, 1.0), ncol=1, handlelength=1.2,
+                  borderaxespad=0.0, frameon=False)
+    ax.set_title("Over time", loc="left")
+    left_out = (f" {len(all_ratios) - len(ratios)} more ratio(s) are in the table only."
+                if len(all_ratios) > len(ratios) else "")
     return (
-        f"{measure_name(head['measure'])} in each window (line; band = confidence interval); "
-        "dashed grey = null mean; amber rings = windows significant after correction."
+        f"{measure_name(head['measure'])} in each window for every ratio tested (line; band = confidence "
+        "interval); dashed grey = null mean; amber rings = windows significant after correction." + left_out
     )
 
 
@@ -370,7 +371,13 @@ def group_figure(table: pd.DataFrame, morder: list, *, max_maps: int = 6):
     # keep one row per (recording, a, b, ratio): the longest span
     span = pairs["window_end_s"].astype(float) - pairs["window_start_s"].astype(float)
     pairs = pairs.assign(_span=span.fillna(0)).sort_values("_span", ascending=False, kind="stable")
+    n_spans = pairs[["window_start_s", "window_end_s"]].drop_duplicates().shape[0]
     pairs = pairs.drop_duplicates(["recording", "signal_a", "signal_b", "ratio"])
+    span_txt = ""
+    if n_spans > 1:
+        w0, w1 = float(pairs["window_start_s"].iloc[0]), float(pairs["window_end_s"].iloc[0])
+        span_txt = (f" Values of the longest analysed span of each pair ({w0:.0f}–{w1:.0f} s for the first); "
+                    f"{n_spans} spans were analysed, see the table for the others.")
     maps = []
     for rec, g in pairs.groupby("recording", sort=False):
         names = list(dict.fromkeys(g["signal_a"].tolist() + g["signal_b"].tolist()))
@@ -436,6 +443,7 @@ def group_figure(table: pd.DataFrame, morder: list, *, max_maps: int = 6):
     cap = (
         f"{measure_name(measure)} for every pair (row = signal A, column = signal B; a 1:1 "
         "map is symmetric). * and bold = significant after correction. Grey = not analysed."
+        + span_txt
     )
     if omitted:
         cap += f" {omitted} further map(s) were left out to keep the page small; see results.csv."
