@@ -203,3 +203,23 @@ def test_plv_interval_covers_the_long_record_value_on_wandering_locked_pairs():
         t = syncstats.analyze(b.replica(i).signals, fs=10, n_surrogates=0, n_bootstrap=299, rng=i).table.iloc[0]
         hits += t.ci_low <= truth <= t.ci_high
     assert hits / r >= 0.75, f"coverage {hits / r:.2f} of the long-record PLV {truth:.3f}"
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("ratio", [(2, 1), (3, 2)])
+def test_the_locking_ratio_is_named_and_no_other(ratio):
+    """`locked` names exactly the true ratio of n:m-locked phase oscillators (Adler nu 0.5,
+    300 s at 10 Hz) in a scan of six ratios with the max-statistic, in >= 90 % of runs
+    (measured: 49/50 at 2:1, 50/50 at 3:2, docs/validation.md); certainty near 1."""
+    r = 40 if FULL else 15
+    b = scenario_batch("phase", n_replicas=r, coupled=True, ratio=ratio, duration=300.0, fs=10.0, rng=11)
+    exact, cert = 0, []
+    scan = [(1, 1), (2, 1), (3, 1), (4, 1), (5, 1), (3, 2)]
+    for i in range(r):
+        sc = b.replica(i)
+        t = syncstats.analyze(sc.signals, fs=10.0, ratios=scan, surrogate="time_shift", correction="max_stat",
+                              n_bootstrap=99, rng=i).table
+        exact += list(t.ratio[t.locked.fillna(False).astype(bool)]) == [f"{ratio[0]}:{ratio[1]}"]
+        cert.append(float(t.ratio_certainty.iloc[0]))
+    assert exact / r >= 0.9, f"true ratio named alone in {exact}/{r} runs"
+    assert np.mean(cert) > 0.9
