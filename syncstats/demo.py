@@ -12,7 +12,6 @@ from pathlib import Path
 import numpy as np
 from scipy import signal as sps
 
-from ._errors import SyncstatsInputError
 from .api import AnalysisResult, analyze
 
 __all__ = ["DEMO_SETTINGS", "demo_analysis", "write_scenario"]

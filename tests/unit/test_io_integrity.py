@@ -11,7 +11,6 @@ version field at 0, "number of data records" at 236-243, "number of signals" at
 from __future__ import annotations
 
 import hashlib
-import os
 import warnings
 from pathlib import Path
 
