@@ -117,6 +117,9 @@ def build_table(design, *, recording, time_s, fs, observed, test, ratios, interv
         if r.measure == "plv":
             what += (f", shifted by the PLV's finite-sample bias ({ci.bias:.3g}) for {ci.n_eff:.0f} effective cycles: "
                      "an interval for the PLV long records converge to")
+        if ci.phase_model:
+            what += (", widened to contain the parametric bootstrap interval of the fitted noisy phase-difference "
+                     "model (slips at the model's rate)")
         return what
     rows = []
     for i, r in enumerate(design.rows):

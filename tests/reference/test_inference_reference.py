@@ -110,3 +110,47 @@ def test_ties_count_as_exceedances():
     # Phipson & Smyth 2010: b counts surrogates at least as extreme (>=), by hand: 3 of 3
     null = np.array([[0.5], [0.5], [0.2]])
     assert surrogate_pvalue(np.array([0.5]), null)[0] == pytest.approx(3 / 4)
+
+
+def _von_mises_psi(kappa_rate, sigma, n_steps, dt, rng, n=1):
+    """Euler–Maruyama paths of dpsi = -b sin(psi) dt + sigma dW (fine steps)."""
+    psi = np.zeros((n, n_steps))
+    cur = np.zeros(n)
+    for j in range(n_steps):
+        psi[:, j] = cur
+        cur = cur - kappa_rate * np.sin(cur) * dt + sigma * np.sqrt(dt) * rng.standard_normal(n)
+    return psi
+
+
+def test_phase_model_interval_targets_the_stationary_plv_of_the_noisy_locking_model():
+    """Closed form: the phase difference dpsi = -b sin(psi) dt + sigma dW has the stationary
+    density exp(kappa cos psi) / (2 pi I0(kappa)), kappa = 2 b / sigma^2 (Stratonovich 1963,
+    Topics in the Theory of Random Noise II; Pikovsky, Rosenblum & Kurths 2001, ch. 9 —
+    recalled), whose long-run PLV is I1(kappa) / I0(kappa) (the von Mises mean resultant
+    length; Mardia & Jupp 2000, Directional Statistics, sec. 3.5.4). The interval of
+    ``phase_model_interval`` is an interval for that long-run value.
+
+    Measured (seeded): on 100 records of 400 cycles it covered the closed-form value in
+    0.89 (nominal 0.95; every miss above it: records that happened to stay near the
+    minimum fit a higher barrier — the fitted model's parameter uncertainty is not
+    propagated); on 100 records of 100 cycles in 0.74. That is why ``row_intervals`` uses
+    it only to *widen* the block-bootstrap interval, never alone. Asserted here: coverage
+    >= 0.8 on 20 records of 400 cycles, and a long record (2000 cycles) whose interval
+    holds the closed-form value and is narrow."""
+    from scipy import special
+
+    from syncstats.inference._bootstrap import phase_model_interval
+
+    b, sigma, dt = 0.02, 0.15, 1.0  # per sample; kappa = 1.78
+    kappa = 2 * b / sigma**2
+    truth = special.i1(kappa) / special.i0(kappa)
+    rng = np.random.default_rng(20261202)
+    paths = _von_mises_psi(b, sigma, 8000, dt, rng, n=20)
+    hits = 0
+    for k in range(20):
+        iv = phase_model_interval(paths[k], 20, n_resamples=99, level=0.95, rng=np.random.default_rng(k))
+        hits += iv.low <= truth <= iv.high
+    assert hits >= 16, f"covered the von Mises value {truth:.3f} in {hits} of 20 records"
+    long = _von_mises_psi(b, sigma, 40000, dt, rng)[0]
+    iv = phase_model_interval(long, 20, n_resamples=199, level=0.95, rng=np.random.default_rng(1))
+    assert iv.low <= truth <= iv.high and iv.high - iv.low < 0.1, (iv, truth)
