@@ -133,7 +133,7 @@ def test_phase_model_interval_targets_the_stationary_plv_of_the_noisy_locking_mo
     Measured (seeded): on 100 records of 400 cycles it covered the closed-form value in
     0.89 (nominal 0.95; every miss above it: records that happened to stay near the
     minimum fit a higher barrier — the fitted model's parameter uncertainty is not
-    propagated); on 100 records of 100 cycles in 0.74. That is why ``row_intervals`` uses
+    propagated); on 100 records of 100 cycles in 0.77. That is why ``row_intervals`` uses
     it only to *widen* the block-bootstrap interval, never alone. Asserted here: coverage
     >= 0.8 on 20 records of 400 cycles, and a long record (2000 cycles) whose interval
     holds the closed-form value and is narrow."""

@@ -187,7 +187,7 @@ def test_plv_interval_covers_the_long_record_value_on_wandering_locked_pairs():
     reference value is the mean PLV of eight 3000-s records of the same model. Measured:
     one-cycle blocks 0.55 (R = 40); blocks of three integrated autocorrelation times with
     the bias shift 0.90 (R = 200; the misses were records that happened not to slip);
-    widened to contain the phase-difference model's interval 0.97 (R = 100, mean width
+    widened to contain the phase-difference model's interval 0.96 (R = 100, mean width
     0.33 against 0.25). The reduced size asserts the issue's 0.93 at R = 40."""
     from syncstats.simulate import scenario_batch
 
