@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -415,198 +415,239 @@ def check_claim(*, index="plv", value, p_claimed=None, p_is_bound=False, test=No
     o = _check_claim_iv(index, value, p_claimed, p_is_bound, test, n_cycles, duration_s, freq_a, freq_b, fs,
                         ratio, n_ratios, n_pairs, n_windows, n_surrogates, alpha, correction, decimals, ci,
                         ci_level)
-    rows: list[tuple[str, float, str]] = []
-    verdicts: list[str] = []
-    flags: list[str] = []
-    assumptions: list[str] = []
+    nb = _Notes()
+    c = _claim_basics(nb, o)
+    significant = _cycle_rayleigh(nb, o, c)
+    lp_s = _sample_rayleigh(nb, o, c)
+    _claimed_p(nb, o, c, lp_s)
+    _surrogate_floor(nb, o)
+    if o["p_claimed"] is not None and o["p_claimed"] <= o["alpha"] and o["value"] <= c.chance_mean:
+        nb.flags.append("below_chance_called_significant")
+        nb.verdicts.append(
+            f"The {c.label} of {o['value']:g} is at or below the level independent rhythms reach by chance over "
+            f"{c.n:.0f} cycles ({c.chance_mean:.3f}), yet it is called significant; the claim cannot be right as "
+            "stated."
+        )
+    _precision(nb, o, c)
+    _ratio_mismatch(nb, o)
+    nb.verdicts.append(
+        "Numbers alone cannot reveal filter-made locking or non-stationarity: ask for the data and re-test "
+        "with surrogates pushed through the same pipeline (syncstats.claims.retest)."
+    )
+    nb.verdicts.append(_DISCLAIMER)
+    table = pd.DataFrame(nb.rows, columns=["name", "value", "meaning"])
+    table["value"] = table["value"].astype(float)
+    params = {k: o[k] for k in o}
+    return ClaimCheck(table=table, verdicts=tuple(nb.verdicts), flags=tuple(dict.fromkeys(nb.flags)),
+                      assumptions=tuple(nb.assumptions), significant=bool(significant), params=params)
 
-    def add(name, val, meaning):
-        rows.append((name, float(val) if val is not None else math.nan, meaning))
 
-    idx, v, alpha, m, corr = o["index"], o["value"], o["alpha"], o["search"], o["correction"]
-    p, q = o["ratio"]
+class _Notes:
+    """What a claim check writes down: table rows, verdict sentences, flags, assumptions."""
+
+    def __init__(self):
+        self.rows: list[tuple[str, float, str]] = []
+        self.verdicts: list[str] = []
+        self.flags: list[str] = []
+        self.assumptions: list[str] = []
+
+    def add(self, name, val, meaning):
+        self.rows.append((name, float(val) if val is not None else math.nan, meaning))
+
+
+class _Basics(NamedTuple):
+    n: float  # effective cycles
+    n_samples: float | None
+    g: float  # PLV equivalent over n cycles
+    label: str
+    chance_mean: float
+    corr_name: str
+
+
+def _claim_basics(nb, o) -> _Basics:
+    """Effective cycles and samples, the PLV equivalent, and the chance level."""
+    idx, v, m = o["index"], o["value"], o["search"]
     label = idx.upper()
-    corr_name = "Bonferroni" if corr == "bonferroni" else "Šidák"
-
-    # ---- effective number of cycles and samples
+    corr_name = "Bonferroni" if o["correction"] == "bonferroni" else "Šidák"
     if o["n_cycles"] is not None:
         n = o["n_cycles"]
         how_n = "given directly"
     else:
         n = o["duration_s"] * min(o["freq_a"], o["freq_b"])
         how_n = f"{o['duration_s']:g} s x {min(o['freq_a'], o['freq_b']):g} Hz (slower rhythm)"
-        assumptions.append("freq_a and freq_b are the mean frequencies over the analysed span.")
-    assumptions.append(
+        nb.assumptions.append("freq_a and freq_b are the mean frequencies over the analysed span.")
+    nb.assumptions.append(
         f"One angle per cycle of the slower rhythm is independent: N_eff = {n:g} cycles ({how_n}); samples "
         "within a cycle are not independent (E[PLV^2] = 1/N_eff under independence, common practice)."
     )
-    add("n_cycles", n, "effective number of independent angles: cycles of the slower rhythm")
+    nb.add("n_cycles", n, "effective number of independent angles: cycles of the slower rhythm")
     n_samples = None
     if o["fs"] is not None and o["duration_s"] is not None:
         n_samples = o["duration_s"] * o["fs"]
-    add("n_samples", n_samples, "samples in the analysed span (the N a naive every-sample test uses)")
-    add("search_size", m, "tests searched: ratios x pairs x windows")
-    add("index_value", v, f"the reported {label}")
-
-    # ---- PLV equivalent at N cycles
+    nb.add("n_samples", n_samples, "samples in the analysed span (the N a naive every-sample test uses)")
+    nb.add("search_size", m, "tests searched: ratios x pairs x windows")
+    nb.add("index_value", v, f"the reported {label}")
     g = v if idx == "plv" else _plv_from_ppc(v, n)
     if idx == "ppc":
-        assumptions.append(
+        nb.assumptions.append(
             f"The PPC was computed from one angle per cycle; it equals a PLV of {g:.3f} over N_eff angles "
             "(PPC = (N PLV^2 - 1)/(N - 1), Vinck et al. 2010)."
         )
-        add("plv_equivalent", g, "PLV over N_eff angles that gives the reported PPC")
-
-    # ---- chance level
+        nb.add("plv_equivalent", g, "PLV over N_eff angles that gives the reported PPC")
     cm, cs = chance_plv(n)
     if idx == "plv":
         chance_mean, chance_sd = cm, cs
-        add("chance_mean", cm, "mean PLV of independent rhythms over N_eff cycles, sqrt(pi/(4 N))")
-        add("chance_sd", cs, "SD of that PLV, sqrt((1 - pi/4)/N)")
+        nb.add("chance_mean", cm, "mean PLV of independent rhythms over N_eff cycles, sqrt(pi/(4 N))")
+        nb.add("chance_sd", cs, "SD of that PLV, sqrt((1 - pi/4)/N)")
     else:
         chance_mean, chance_sd = 0.0, 1.0 / (n - 1.0)
-        add("chance_mean", 0.0, "mean PPC of independent rhythms (PPC is unbiased)")
-        add("chance_sd", chance_sd, "SD of the PPC of independent rhythms, 1/(N - 1)")
-    verdicts_head = (
+        nb.add("chance_mean", 0.0, "mean PPC of independent rhythms (PPC is unbiased)")
+        nb.add("chance_sd", chance_sd, "SD of the PPC of independent rhythms, 1/(N - 1)")
+    nb.verdicts.append(
         f"With about {n:.0f} independent cycles, independent rhythms give a {label} of about {chance_mean:.3f} "
         f"on average (SD {chance_sd:.3f}); the reported {v:g} is "
         + (f"{v / chance_mean:.1f} times that." if idx == "plv" and chance_mean > 0 else
            f"{(v - chance_mean) / chance_sd:.1f} SD above it.")
     )
-    verdicts.append(verdicts_head)
+    return _Basics(n, n_samples, g, label, chance_mean, corr_name)
 
-    # ---- cycle-level Rayleigh test
+
+def _cycle_rayleigh(nb, o, c: _Basics) -> bool:
+    """The Rayleigh test with one angle per cycle, corrected for the search; returns
+    whether it is significant."""
+    idx, alpha, m, corr = o["index"], o["alpha"], o["search"], o["correction"]
+    n, g, label, corr_name = c.n, c.g, c.label, c.corr_name
     lp_c = rayleigh_log_p(n, g)
     p_c = math.exp(lp_c)
     p_c_corr = _family_p(p_c, m, corr)
     level = _family_level(alpha, m, corr)
     significant = p_c_corr <= alpha
-    add("rayleigh_z_cycles", n * g * g, "Rayleigh z = N PLV^2 with N = cycles")
-    add("p_cycles", p_c, "Rayleigh p-value with N = cycles (Zar's approximation)")
-    add("p_cycles_corrected", p_c_corr, f"the same after a {corr_name} correction for the search size")
+    nb.add("rayleigh_z_cycles", n * g * g, "Rayleigh z = N PLV^2 with N = cycles")
+    nb.add("p_cycles", p_c, "Rayleigh p-value with N = cycles (Zar's approximation)")
+    nb.add("p_cycles_corrected", p_c_corr, f"the same after a {corr_name} correction for the search size")
     g_crit1 = critical_plv(n, alpha)
     g_crit = critical_plv(n, level)
     if idx == "plv":
-        add("critical_index", g_crit1, f"smallest PLV significant at alpha = {alpha:g} with N cycles, one test")
-        add("critical_index_searched", g_crit, f"smallest PLV significant at alpha = {alpha:g} after the search correction")
+        nb.add("critical_index", g_crit1, f"smallest PLV significant at alpha = {alpha:g} with N cycles, one test")
+        nb.add("critical_index_searched", g_crit,
+               f"smallest PLV significant at alpha = {alpha:g} after the search correction")
     else:
-        add("critical_index", _ppc_from_plv(g_crit1, n) if math.isfinite(g_crit1) else math.inf,
-            f"smallest PPC significant at alpha = {alpha:g} with N cycles, one test")
-        add("critical_index_searched", _ppc_from_plv(g_crit, n) if math.isfinite(g_crit) else math.inf,
-            f"smallest PPC significant at alpha = {alpha:g} after the search correction")
+        nb.add("critical_index", _ppc_from_plv(g_crit1, n) if math.isfinite(g_crit1) else math.inf,
+               f"smallest PPC significant at alpha = {alpha:g} with N cycles, one test")
+        nb.add("critical_index_searched", _ppc_from_plv(g_crit, n) if math.isfinite(g_crit) else math.inf,
+               f"smallest PPC significant at alpha = {alpha:g} after the search correction")
     crit_show = g_crit if idx == "plv" else (_ppc_from_plv(g_crit, n) if math.isfinite(g_crit) else math.inf)
     search_words = "" if m == 1 else f" and {corr_name}-corrected for the {m} tests searched"
+    head = (f"A Rayleigh test with one angle per cycle gives p = {_fmt_p(lp_c)}"
+            + (f" ({_fmt_p(math.log(p_c_corr))} corrected for {m} tests)" if m > 1 else ""))
     if significant:
-        verdicts.append(
-            f"A Rayleigh test with one angle per cycle gives p = {_fmt_p(lp_c)}"
-            + (f" ({_fmt_p(math.log(p_c_corr))} corrected for {m} tests)" if m > 1 else "")
-            + f": the {label} does reject independence at alpha = {alpha:g}, provided the cycles are independent."
+        nb.verdicts.append(
+            head + f": the {label} does reject independence at alpha = {alpha:g}, provided the cycles are independent."
         )
+        nb.verdicts.append(f"The smallest significant {label} for {n:.0f} cycles is {crit_show:.3f}{search_words}.")
     else:
-        verdicts.append(
-            f"A Rayleigh test with one angle per cycle gives p = {_fmt_p(lp_c)}"
-            + (f" ({_fmt_p(math.log(p_c_corr))} corrected for {m} tests)" if m > 1 else "")
-            + f": NOT significant at alpha = {alpha:g}; with {n:.0f} cycles the {label} must reach at least "
+        nb.verdicts.append(
+            head + f": NOT significant at alpha = {alpha:g}; with {n:.0f} cycles the {label} must reach at least "
             + (f"{crit_show:.3f}" if math.isfinite(crit_show) else "an unattainable value")
             + search_words + "."
         )
         if o["p_claimed"] is not None and o["p_claimed"] <= alpha:
-            flags.append("not_significant_after_search")
-    if significant:
-        verdicts.append(
-            f"The smallest significant {label} for {n:.0f} cycles is {crit_show:.3f}{search_words}."
-        )
-    assumptions.append("Rayleigh p-values use Zar's approximation (Zar 1999, Eq. 27.4).")
-    assumptions.append(
+            nb.flags.append("not_significant_after_search")
+    nb.assumptions.append("Rayleigh p-values use Zar's approximation (Zar 1999, Eq. 27.4).")
+    nb.assumptions.append(
         f"The search of {m} test(s) is corrected by {corr_name} as if the tests were independent; "
         "that is conservative when ratios or windows overlap."
     )
+    return bool(significant)
 
-    # ---- every-sample Rayleigh test, for comparison
-    lp_s = None
-    if n_samples is not None:
-        g_s = v if idx == "plv" else _plv_from_ppc(v, n_samples)
-        lp_s = rayleigh_log_p(n_samples, g_s)
-        add("p_samples", math.exp(lp_s), "Rayleigh p-value if every sample counted as independent (naive test)")
-        add("log10_p_samples", lp_s / _LN10, "log10 of that p-value (it can be below the smallest double)")
-    else:
-        add("p_samples", None, "Rayleigh p-value if every sample counted (needs fs and duration_s)")
-        add("log10_p_samples", None, "log10 of that p-value")
 
-    # ---- the claimed p-value
+def _sample_rayleigh(nb, o, c: _Basics):
+    """The naive every-sample Rayleigh test, for comparison; returns its log p (or None)."""
+    if c.n_samples is None:
+        nb.add("p_samples", None, "Rayleigh p-value if every sample counted (needs fs and duration_s)")
+        nb.add("log10_p_samples", None, "log10 of that p-value")
+        return None
+    g_s = o["value"] if o["index"] == "plv" else _plv_from_ppc(o["value"], c.n_samples)
+    lp_s = rayleigh_log_p(c.n_samples, g_s)
+    nb.add("p_samples", math.exp(lp_s), "Rayleigh p-value if every sample counted as independent (naive test)")
+    nb.add("log10_p_samples", lp_s / _LN10, "log10 of that p-value (it can be below the smallest double)")
+    return lp_s
+
+
+def _claimed_p(nb, o, c: _Basics, lp_s):
+    """Which Rayleigh test the claimed p-value matches."""
     pc = o["p_claimed"]
-    add("p_claimed", pc, "the p-value the claim reports" + (" (an upper bound)" if o["p_is_bound"] else ""))
-    if pc is not None and o["test"] in ("rayleigh", "rayleigh_samples", "rayleigh_cycles"):
-        lpc = math.log(pc)
-        if o["p_is_bound"]:
-            cyc_ok = lp_c <= lpc + 1e-12
-            smp_ok = lp_s is not None and lp_s <= lpc + 1e-12
-        else:
-            cyc_ok = abs(lp_c - lpc) <= abs(lp_s - lpc) if lp_s is not None else True
-            smp_ok = lp_s is not None and not cyc_ok
-        add("log10_distance_cycles", abs(lp_c - lpc) / _LN10,
-            "distance of the cycle-level p from the claimed p, in decades")
-        if lp_s is not None:
-            add("log10_distance_samples", abs(lp_s - lpc) / _LN10,
-                "distance of the every-sample p from the claimed p, in decades")
-        if smp_ok and not cyc_ok:
-            flags.append("every_sample_rayleigh")
-            verdicts.append(
-                f"The claimed p {'<' if o['p_is_bound'] else '='} {pc:g} is what a Rayleigh test over all "
-                f"{n_samples:.0f} samples gives (p = {_fmt_p(lp_s)}), not one over the {n:.0f} cycles "
-                f"(p = {_fmt_p(lp_c)}): the claim most likely treated autocorrelated samples as independent, "
-                "which makes the p-value far too small."
-            )
-        elif o["test"] == "rayleigh_samples":
-            verdicts.append(
-                "The claim used an every-sample Rayleigh test; samples of a phase difference are autocorrelated, "
-                "so its p-value is not valid whatever its size; the cycle-level p above is the relevant one."
-            )
-        elif not cyc_ok:
-            verdicts.append(
-                f"The claimed p {'<' if o['p_is_bound'] else '='} {pc:g} is smaller than a cycle-level Rayleigh test "
-                f"gives (p = {_fmt_p(lp_c)}); ask how it was computed."
-            )
+    nb.add("p_claimed", pc, "the p-value the claim reports" + (" (an upper bound)" if o["p_is_bound"] else ""))
+    if pc is None or o["test"] not in ("rayleigh", "rayleigh_samples", "rayleigh_cycles"):
+        return
+    lp_c = rayleigh_log_p(c.n, c.g)
+    lpc = math.log(pc)
+    if o["p_is_bound"]:
+        cyc_ok = lp_c <= lpc + 1e-12
+        smp_ok = lp_s is not None and lp_s <= lpc + 1e-12
+    else:
+        cyc_ok = abs(lp_c - lpc) <= abs(lp_s - lpc) if lp_s is not None else True
+        smp_ok = lp_s is not None and not cyc_ok
+    nb.add("log10_distance_cycles", abs(lp_c - lpc) / _LN10,
+           "distance of the cycle-level p from the claimed p, in decades")
+    if lp_s is not None:
+        nb.add("log10_distance_samples", abs(lp_s - lpc) / _LN10,
+               "distance of the every-sample p from the claimed p, in decades")
+    rel = "<" if o["p_is_bound"] else "="
+    if smp_ok and not cyc_ok:
+        nb.flags.append("every_sample_rayleigh")
+        nb.verdicts.append(
+            f"The claimed p {rel} {pc:g} is what a Rayleigh test over all "
+            f"{c.n_samples:.0f} samples gives (p = {_fmt_p(lp_s)}), not one over the {c.n:.0f} cycles "
+            f"(p = {_fmt_p(lp_c)}): the claim most likely treated autocorrelated samples as independent, "
+            "which makes the p-value far too small."
+        )
+    elif o["test"] == "rayleigh_samples":
+        nb.verdicts.append(
+            "The claim used an every-sample Rayleigh test; samples of a phase difference are autocorrelated, "
+            "so its p-value is not valid whatever its size; the cycle-level p above is the relevant one."
+        )
+    elif not cyc_ok:
+        nb.verdicts.append(
+            f"The claimed p {rel} {pc:g} is smaller than a cycle-level Rayleigh test "
+            f"gives (p = {_fmt_p(lp_c)}); ask how it was computed."
+        )
 
-    # ---- surrogate p-value floor
-    S = o["n_surrogates"]
+
+def _surrogate_floor(nb, o):
+    """A claimed surrogate p-value against the floor 1/(S + 1)."""
+    S, pc = o["n_surrogates"], o["p_claimed"]
     if S is not None:
         floor = 1.0 / (S + 1.0)
-        add("p_floor_surrogates", floor, "smallest p-value S surrogates can give, 1/(S + 1)")
+        nb.add("p_floor_surrogates", floor, "smallest p-value S surrogates can give, 1/(S + 1)")
         if pc is not None and (pc < floor or (o["p_is_bound"] and pc <= floor)):
-            flags.append("p_below_surrogate_floor")
-            verdicts.append(
+            nb.flags.append("p_below_surrogate_floor")
+            nb.verdicts.append(
                 f"The claimed p {'<' if o['p_is_bound'] else '='} {pc:g} is impossible with {S} surrogates: the "
                 f"smallest surrogate p-value is 1/(S + 1) = {floor:.2g} (Phipson & Smyth 2010); it needs at least "
                 f"{math.ceil(1.0 / pc - 1.0)} surrogates, or p was counted as k/S (which can reach 0)."
             )
     elif pc is not None and o["test"] == "surrogate":
         need = math.ceil(1.0 / pc - 1.0) + (1 if o["p_is_bound"] else 0)
-        add("surrogates_needed", need, "fewest surrogates that can give the claimed p, 1/p - 1")
-        verdicts.append(f"A surrogate p-value of {pc:g} needs at least {need} surrogates; check the count used.")
+        nb.add("surrogates_needed", need, "fewest surrogates that can give the claimed p, 1/p - 1")
+        nb.verdicts.append(f"A surrogate p-value of {pc:g} needs at least {need} surrogates; check the count used.")
 
-    # ---- below chance but called significant
-    claimed_sig = pc is not None and pc <= alpha
-    if claimed_sig and v <= chance_mean:
-        flags.append("below_chance_called_significant")
-        verdicts.append(
-            f"The {label} of {v:g} is at or below the level independent rhythms reach by chance over {n:.0f} cycles "
-            f"({chance_mean:.3f}), yet it is called significant; the claim cannot be right as stated."
-        )
 
-    # ---- precision
-    if idx == "plv":
+def _precision(nb, o, c: _Basics):
+    """Decimals and interval width against what N_eff cycles support."""
+    n, g, label = c.n, c.g, c.label
+    if o["index"] == "plv":
         se = plv_standard_error(g, n)
     else:
         se = max(2.0 * g * (1.0 - g * g) / math.sqrt(2.0 * n), 1.0 / (n - 1.0))
-    add("standard_error", se, f"standard error of the {label} for N_eff cycles")
+    nb.add("standard_error", se, f"standard error of the {label} for N_eff cycles")
     if o["decimals"] is not None:
-        add("decimals_reported", o["decimals"], "decimals of the reported value")
+        nb.add("decimals_reported", o["decimals"], "decimals of the reported value")
         supported = max(0, math.floor(-math.log10(se)))
-        add("decimals_supported", supported, "decimals the standard error supports (last digit >= SE/10 kept)")
+        nb.add("decimals_supported", supported, "decimals the standard error supports (last digit >= SE/10 kept)")
         if 10.0 ** (-o["decimals"]) < se / 10.0:
-            flags.append("precision_beyond_cycles")
-            verdicts.append(
+            nb.flags.append("precision_beyond_cycles")
+            nb.verdicts.append(
                 f"The value is reported to {o['decimals']} decimals, but with {n:.0f} cycles its standard error is "
                 f"about {se:.2g}: at most {supported + 1} decimal(s) carry information."
             )
@@ -614,44 +655,37 @@ def check_claim(*, index="plv", value, p_claimed=None, p_is_bound=False, test=No
         zq = float(_norm_ppf(0.5 + o["ci_level"] / 2.0))
         width = o["ci"][1] - o["ci"][0]
         expected = 2.0 * zq * se
-        add("ci_width_reported", width, "width of the reported confidence interval")
-        add("ci_width_expected", expected, f"width a {o['ci_level']:.0%} interval has with N_eff cycles, 2 z SE")
+        nb.add("ci_width_reported", width, "width of the reported confidence interval")
+        nb.add("ci_width_expected", expected, f"width a {o['ci_level']:.0%} interval has with N_eff cycles, 2 z SE")
         if width < 0.5 * expected:
-            flags.append("ci_narrower_than_cycles_allow")
+            nb.flags.append("ci_narrower_than_cycles_allow")
             implied = n * (expected / max(width, 1e-12)) ** 2
-            add("n_implied_by_ci", implied, "number of independent angles that interval width implies")
-            verdicts.append(
+            nb.add("n_implied_by_ci", implied, "number of independent angles that interval width implies")
+            nb.verdicts.append(
                 f"The reported interval is {width:.3g} wide; {n:.0f} cycles allow no less than about {expected:.2g}. "
                 f"It implies about {implied:.0f} independent angles, as if samples rather than cycles were resampled "
                 "(a bootstrap must resample whole cycles)."
             )
 
-    # ---- ratio versus frequencies
-    if o["freq_a"] is not None and o["freq_b"] is not None and o["duration_s"] is not None:
-        det = q * o["freq_a"] - p * o["freq_b"]
-        turns = abs(det) * o["duration_s"]
-        add("ratio_detuning_hz", det, f"q f_A - p f_B: drift rate of psi for the claimed {p}:{q} ratio")
-        add("ratio_drift_turns", turns, "full turns psi drifts over the record at these mean frequencies")
-        if turns >= 1.0:
-            flags.append("ratio_mismatch")
-            verdicts.append(
-                f"The stated frequencies ({o['freq_a']:g} Hz and {o['freq_b']:g} Hz, ratio "
-                f"{o['freq_a'] / o['freq_b']:.2f}) are not in the claimed {p}:{q} ratio: if they are the mean "
-                f"frequencies, psi drifts through about {turns:.0f} full turns over the record, which rules out "
-                f"{p}:{q} locking over the whole record (locking can at most hold in epochs)."
-            )
-            assumptions.append("The frequencies are not rounded so coarsely that the mismatch disappears.")
 
-    verdicts.append(
-        "Numbers alone cannot reveal filter-made locking or non-stationarity: ask for the data and re-test "
-        "with surrogates pushed through the same pipeline (syncstats.claims.retest)."
-    )
-    verdicts.append(_DISCLAIMER)
-    table = pd.DataFrame(rows, columns=["name", "value", "meaning"])
-    table["value"] = table["value"].astype(float)
-    params = {k: o[k] for k in o}
-    return ClaimCheck(table=table, verdicts=tuple(verdicts), flags=tuple(dict.fromkeys(flags)),
-                      assumptions=tuple(assumptions), significant=bool(significant), params=params)
+def _ratio_mismatch(nb, o):
+    """Whether the stated mean frequencies are in the claimed ratio."""
+    if o["freq_a"] is None or o["freq_b"] is None or o["duration_s"] is None:
+        return
+    p, q = o["ratio"]
+    det = q * o["freq_a"] - p * o["freq_b"]
+    turns = abs(det) * o["duration_s"]
+    nb.add("ratio_detuning_hz", det, f"q f_A - p f_B: drift rate of psi for the claimed {p}:{q} ratio")
+    nb.add("ratio_drift_turns", turns, "full turns psi drifts over the record at these mean frequencies")
+    if turns >= 1.0:
+        nb.flags.append("ratio_mismatch")
+        nb.verdicts.append(
+            f"The stated frequencies ({o['freq_a']:g} Hz and {o['freq_b']:g} Hz, ratio "
+            f"{o['freq_a'] / o['freq_b']:.2f}) are not in the claimed {p}:{q} ratio: if they are the mean "
+            f"frequencies, psi drifts through about {turns:.0f} full turns over the record, which rules out "
+            f"{p}:{q} locking over the whole record (locking can at most hold in epochs)."
+        )
+        nb.assumptions.append("The frequencies are not rounded so coarsely that the mismatch disappears.")
 
 
 def _norm_ppf(x):
