@@ -74,15 +74,19 @@ def _ratio_chunk(args):
         t = syncstats.analyze(signals, fs=FS, events=ev, pairs=[_pair(b)], ratios=list(SCAN), surrogate="time_shift",
                               correction="max_stat", n_bootstrap=0, rng=seed * 1000 + r0 + i).table
         named = list(t.ratio[t.locked.fillna(False).astype(bool)])
-        out.append((named == [f"{ratio[0]}:{ratio[1]}"], bool(t.significant.fillna(False).any()),
-                    float(t.ratio_certainty.iloc[0])))
+        true = f"{ratio[0]}:{ratio[1]}"
+        out.append((named == [true], bool(t.significant.fillna(False).any()), float(t.ratio_certainty.iloc[0]),
+                    any(r != true for r in named), float(t.value[t.ratio == true].iloc[0])))
     return out
 
 
-def ratio_rows(replicas: int, workers: int, duration: float = 300.0, seed: int = 31):
+def ratio_rows(replicas: int, workers: int, duration: float = 300.0, seed: int = 31, only=None):
+    """``only``: (family label, "p:q") cells to run (default all)."""
     rows = []
     for k, (label, kind, events) in enumerate(RATIO_KINDS):
         for j, ratio in enumerate(RATIOS):
+            if only and (label, f"{ratio[0]}:{ratio[1]}") not in only:
+                continue
             res = {}
             for coupled in (True, False):
                 s = seed + 100 * k + 10 * j + int(coupled)
@@ -91,6 +95,7 @@ def ratio_rows(replicas: int, workers: int, duration: float = 300.0, seed: int =
                 res[coupled] = np.array(sum(_map(_ratio_chunk, jobs, workers), []), float)
             rows.append(dict(part="ratios", family=label, ratio=f"{ratio[0]}:{ratio[1]}", replicas=replicas,
                              exact_share=res[True][:, 0].mean(), certainty=res[True][:, 2].mean(),
+                             wrong_share=res[True][:, 3].mean(), median_plv=float(np.median(res[True][:, 4])),
                              fwer_uncoupled=res[False][:, 1].mean()))
             print(rows[-1], flush=True)
     return rows
@@ -253,15 +258,19 @@ def markdown(rows) -> list[str]:
         out += ["", "## Which ratio locks", "",
                 "Scan of 1:1, 2:1, 3:1, 4:1, 5:1, 3:2 (time shift over every shift, max-statistic, 300 s at 10 Hz). "
                 "'exact' = share of locked runs in which `locked` names the true ratio and no other (target >= 0.90); "
+                "'wrong' = share in which `locked` names a ratio that is not the true one; 'median PLV' = at the "
+                "true ratio, in the locked runs; "
                 "'FWER' = share of uncoupled runs (detuned 3 % from the ratio) with any significant row (binomial "
                 "99 % upper bound at these replicas in the last column).", "",
-                "| family | ratio | replicas | exact | mean certainty | FWER uncoupled | FWER bound |",
-                "|---|---|---|---|---|---|---|"]
+                "| family | ratio | replicas | exact | wrong | median PLV | mean certainty | FWER uncoupled | FWER bound |",
+                "|---|---|---|---|---|---|---|---|---|"]
         from .study import fpr_upper
 
         for _, r in rat.iterrows():
-            out.append(f"| {r.family} | {r.ratio} | {int(r.replicas)} | {r.exact_share:.3f} | {r.certainty:.3f} | "
-                       f"{r.fwer_uncoupled:.3f} | {fpr_upper(int(r.replicas)):.3f} |")
+            wrong = f"{r.wrong_share:.3f}" if "wrong_share" in r and pd.notna(r.wrong_share) else "—"
+            med = f"{r.median_plv:.3f}" if "median_plv" in r and pd.notna(r.median_plv) else "—"
+            out.append(f"| {r.family} | {r.ratio} | {int(r.replicas)} | {r.exact_share:.3f} | {wrong} | {med} | "
+                       f"{r.certainty:.3f} | {r.fwer_uncoupled:.3f} | {fpr_upper(int(r.replicas)):.3f} |")
     ref = df[df.part.isin(["reference", "reference_weak"])] if "part" in df else df.iloc[:0]
     if len(ref):
         out += ["", "## Power against the exact-null reference", "",
@@ -288,6 +297,7 @@ def main(argv=None):
     ap.add_argument("--quick", action="store_true", help="small size, print only")
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--parts", default="coverage,ratios,weak,reference")
+    ap.add_argument("--only", default="", help='ratio cells to re-run, e.g. "van der Pol relaxation=2:1;..."')
     a = ap.parse_args(argv)
     size = QUICK if a.quick else SIZES
     parts = set(a.parts.split(","))
@@ -299,7 +309,8 @@ def main(argv=None):
                                                                       "heart beats + breathing, with RSA")],
                               replicas=size["coverage"], workers=a.workers)
     if "ratios" in parts:
-        rows += ratio_rows(size["ratios"], a.workers)
+        only = {tuple(c.split("=")) for c in a.only.split(";") if c} or None
+        rows += ratio_rows(size["ratios"], a.workers, only=only)
     if "weak" in parts:
         rows += weak_reference_rows(next(f for f in FAMILIES if f.kind == "phase"), replicas=size["weak"],
                                     pool=size["pool"], workers=a.workers)
@@ -309,9 +320,12 @@ def main(argv=None):
     if a.quick:
         print("\n".join(markdown(rows)))
         return
-    old = pd.read_csv(CSV) if CSV.exists() else pd.DataFrame(columns=["part"])
-    keep = old[~old.part.isin([{"weak": "reference_weak"}.get(p, p) for p in parts])] if len(old) else old
-    pd.concat([keep, pd.DataFrame(rows)], ignore_index=True).to_csv(CSV, index=False)
+    new = pd.DataFrame(rows)
+    old = pd.read_csv(CSV) if CSV.exists() else new.iloc[:0]
+    key = [c for c in ("part", "family", "ratio", "method") if c in new]
+    # a re-measured row replaces its old version; every other row is kept
+    stale = old[key].astype(str).apply(tuple, axis=1).isin(set(new[key].astype(str).apply(tuple, axis=1)))
+    pd.concat([old[~stale], new], ignore_index=True).to_csv(CSV, index=False)
     print(f"wrote {CSV}")
 
 
