@@ -77,6 +77,9 @@ EPOCH_DEFAULTS = {"tolerance": float(np.pi / 4), "window_cycles": 10, "min_cycle
 #: and the bootstrap streams)
 EPOCH_STREAM = 2**31 - 3
 
+#: signal-level nulls that replace each rhythm by a linear process (see the note they add)
+_LINEAR_NULLS = ("fourier", "aaft", "iaaft", "multivariate_fourier")
+
 #: columns of ``EpochResult.epochs`` (one row per epoch)
 EPOCH_COLUMNS = ("recording", "signal_a", "signal_b", "ratio", "p", "q", "epoch", "start_s", "end_s",
                  "duration_s", "n_cycles", "mean_phase", "index")
@@ -424,6 +427,11 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
                                                        "correction", "family", "warnings"))
     epochs = _typed(pd.DataFrame(ep_rows), EPOCH_COLUMNS, {"p": "int64", "q": "int64", "epoch": "int64"},
                     texts=("recording", "signal_a", "signal_b", "ratio"))
+    if null is not None and surrogate in _LINEAR_NULLS:
+        notes.append(f"epochs: {surrogate} surrogates make each rhythm a linear process whose phase wanders more "
+                     "than a self-sustained rhythm's, so long chance plateaus are somewhat rarer under them than in "
+                     "independent data (validation: null mean 77 s against 94 s observed, FPR 0.083 at R = 60 on "
+                     "an uncoupled pair near 4:1); time_shift keeps each rhythm's own dynamics")
     notes.insert(0, f"epochs: psi within a circular SD of {opt.tolerance:.3g} rad (windowed PLV >= {opt.threshold:.3g}) "
                     f"over {opt.window_cycles} cycles, epochs of at least {opt.min_cycles:g} cycles and {opt.min_s:g} s")
     return EpochResult(epochs, summary, curves, opt, tuple(notes))
