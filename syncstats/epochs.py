@@ -42,8 +42,8 @@ surrogate, p = (1 + #{T_b ≥ T}) / (1 + S), and the p-values of all pairs x rat
 recording are corrected together (the ``family`` column says what was counted).
 
 The locked share comes with a percentile interval from a circular block bootstrap of the
-per-cycle locked indicator (blocks of three integrated autocorrelation times of the
-indicator, at least one window); the detection itself is held fixed.
+per-cycle locked indicator (blocks of one mean locked-plus-free stretch, see
+:func:`_share_ci`); the detection itself is held fixed.
 
 References
 ----------
@@ -82,7 +82,7 @@ _LINEAR_NULLS = ("fourier", "aaft", "iaaft", "multivariate_fourier")
 
 #: columns of ``EpochResult.epochs`` (one row per epoch)
 EPOCH_COLUMNS = ("recording", "signal_a", "signal_b", "ratio", "p", "q", "epoch", "start_s", "end_s",
-                 "duration_s", "n_cycles", "mean_phase", "index")
+                 "duration_s", "n_cycles", "mean_phase", "index", "p_duration", "beyond_chance")
 #: columns of ``EpochResult.summary`` (one row per recording x pair x ratio)
 SUMMARY_COLUMNS = ("recording", "signal_a", "signal_b", "ratio", "p", "q", "span_s", "n_epochs", "total_locked_s",
                    "locked_share", "share_ci_low", "share_ci_high", "ci_level", "longest_s", "surrogate",
@@ -288,7 +288,10 @@ class EpochResult:
         One row per epoch (:data:`EPOCH_COLUMNS`): recording, signal_a, signal_b, ratio,
         p, q, epoch (1, 2, ... per pair x ratio), start_s, end_s, duration_s, n_cycles
         (cycles of the slower rhythm), mean_phase (circular mean of psi, rad),
-        index (PLV of psi over the epoch).
+        index (PLV of psi over the epoch), p_duration = (1 + #{L_b >= duration}) / (1 + S)
+        with L_b the longest epoch of surrogate b, and beyond_chance = p_duration < alpha:
+        an epoch longer than chance gives anywhere in the record (family-wise over the
+        epochs of its pair x ratio, not across pairs x ratios; NaN/NA without surrogates).
     summary : pandas.DataFrame
         One row per recording x pair x ratio (:data:`SUMMARY_COLUMNS`): total locked
         time, its share of the span with a bootstrap interval, the longest epoch, the
@@ -333,6 +336,11 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
             k = _Key(r.a, r.b, r.p, r.q, r.stride)
             if k not in keys:
                 keys.append(k)
+    if not keys:
+        raise SyncstatsInputError(
+            "epochs are found for pairs of rhythms, but no pair is tested (the measures are group measures only); "
+            "add a pair measure such as plv, or leave epochs off."
+        )
     fam = EpochFamily(tuple(keys), opt, fs, int(n))
     notes = []
     short = [k for k in keys if fam.n_windows(k) < 1]
@@ -340,7 +348,7 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
         k = short[0]
         raise SyncstatsInputError(
             f"the pair ({k.a}, {k.b}) has fewer whole cycles ({n // k.stride}) than one epoch window "
-            f"({opt.window_cycles} cycles); record longer or lower the epoch window (--epoch-window)."
+            f"({opt.window_cycles} cycles); record longer or lower the epoch window (window_cycles; --epoch-window on the command line)."
         )
     obs = fam.evaluate(pipe.data)
     null = None
@@ -370,6 +378,7 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
                 "q": k.q, "epoch": j, "start_s": float(t[i0]), "end_s": float(t[i1 - 1] + 1 / fs),
                 "duration_s": (i1 - i0) / fs, "n_cycles": float((slow[i1 - 1] - slow[i0]) / (2 * np.pi)),
                 "mean_phase": float(np.angle(zz)), "index": float(np.abs(zz)),
+                "p_duration": np.nan, "beyond_chance": pd.NA,
             })
         span_s = kblk * k.stride / fs
         rng = np.random.default_rng(np.random.SeedSequence(seed.entropy, spawn_key=boot_root + (i,)))
@@ -390,6 +399,9 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
             nulls_l.append(nl)
             row.update(null_mean_s=float(nt.mean()), null_sd_s=float(nt.std(ddof=1)) if nt.size > 1 else np.nan,
                        null_longest_mean_s=float(nl.mean()))
+            for er in ep_rows[len(ep_rows) - len(runs):]:  # this key's epochs against the longest under the null
+                er["p_duration"] = float(inf.surrogate_pvalue(np.array([er["duration_s"]]), nl[:, None])[0])
+                er["beyond_chance"] = er["p_duration"] < alpha
         totals.append(float(tot))
         longests.append(float(lon))
         floors.append(mb * k.stride / fs)
@@ -426,7 +438,7 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
                      booleans=("significant",), texts=("recording", "signal_a", "signal_b", "ratio", "surrogate",
                                                        "correction", "family", "warnings"))
     epochs = _typed(pd.DataFrame(ep_rows), EPOCH_COLUMNS, {"p": "int64", "q": "int64", "epoch": "int64"},
-                    texts=("recording", "signal_a", "signal_b", "ratio"))
+                    booleans=("beyond_chance",), texts=("recording", "signal_a", "signal_b", "ratio"))
     if null is not None and surrogate in _LINEAR_NULLS:
         notes.append(f"epochs: {surrogate} surrogates make each rhythm a linear process whose phase wanders more "
                      "than a self-sustained rhythm's, so long chance plateaus are somewhat rarer under them than in "
@@ -474,14 +486,20 @@ def _typed(df, columns, ints, booleans=(), texts=()):
 
 def _share_ci(locked: np.ndarray, window_cycles: int, level: float, n_resamples: int, rng):
     """Percentile interval of the locked share: circular block bootstrap of the per-cycle
-    indicator, blocks of 3 integrated autocorrelation times (at least one window, at
-    most a third of the record). NaN with fewer than three blocks or no resamples."""
+    indicator. A block spans one mean locked-plus-free stretch (cycles / number of epochs),
+    at least one window and three integrated autocorrelation times of the indicator, at
+    most a third of the record. Shorter blocks (autocorrelation-based alone) cut the
+    alternation of locked and free stretches apart, which inflated the interval's width
+    about 1.6-fold on records with random stretches (coverage 1.0 at width 0.35 against
+    0.93 at width 0.24 with these blocks; tests/validation). NaN with fewer than three
+    cycles or no resamples."""
     k = locked.size
     if not n_resamples or k < 3:
         return np.nan, np.nan
     x = locked.astype(float)
     tau = integrated_time(x) if 0 < x.mean() < 1 else 1.0
-    blk = int(min(max(np.ceil(BLOCK_TIMES * tau), window_cycles), max(k // 3, 1)))
+    n_runs = max(len(locked_runs(locked)), 1)
+    blk = int(min(max(np.ceil(k / n_runs), np.ceil(BLOCK_TIMES * tau), window_cycles), max(k // 3, 1)))
     n_blk = int(np.ceil(k / blk))
     starts = rng.integers(0, k, size=(n_resamples, n_blk))
     idx = (starts[:, :, None] + np.arange(blk)[None, None, :]).reshape(n_resamples, -1)[:, :k] % k

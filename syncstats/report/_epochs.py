@@ -73,7 +73,7 @@ def epochs_methods(result, cite) -> str:
         s += " No surrogates were drawn, so the epochs were not tested."
     if "share_ci_low" in sm and sm["share_ci_low"].notna().any():
         s += (" The interval of the share of time locked came from a circular block bootstrap of the per-cycle "
-              "locked indicator (blocks of three integrated autocorrelation times), holding the detection fixed"
+              "locked indicator (blocks as long as one mean locked-plus-free stretch), holding the detection fixed"
               + cite(["efron1993"]) + ".")
     return s
 
@@ -112,6 +112,16 @@ def _figure(found, keys) -> str:
         return to_data_uri(fig)
 
 
+def _cell(v) -> str:
+    if is_missing(v):
+        return "—"
+    if isinstance(v, (bool, np.bool_)):
+        return "yes" if v else "no"
+    if isinstance(v, (float, np.floating)):
+        return fmt_num(v)
+    return str(v)
+
+
 def _p(v) -> str:
     return "—" if is_missing(v) else fmt_num(v)
 
@@ -147,6 +157,9 @@ def epochs_section(result, esc) -> str:
                      f"{_p(r['p_adjusted'])}: <b>{verdict}</b>")
         items.append(f"<li>{line}</li>")
     parts.append("<ul>" + "".join(items[:_MAX_ROWS]) + "</ul>")
+    if tested and len(found.epochs):
+        parts.append("<p class='small'>Each epoch is also set against the longest epoch each surrogate gave: "
+                     "'longer than chance' means fewer than a share α of the surrogates had any epoch as long.</p>")
     keys = list(found.curves)[:MAX_EPOCH_STRIPS]
     if keys:
         parts.append(f'<figure><img alt="locking index over time with epochs" src="{_figure(found, keys)}">'
@@ -159,10 +172,11 @@ def epochs_section(result, esc) -> str:
     if len(ep):
         cols = [("signal_a", "A"), ("signal_b", "B"), ("ratio", "ratio"), ("epoch", "#"), ("start_s", "start (s)"),
                 ("end_s", "end (s)"), ("duration_s", "duration (s)"), ("n_cycles", "cycles"),
-                ("mean_phase", "mean ψ (rad)"), ("index", "PLV within")]
+                ("mean_phase", "mean ψ (rad)"), ("index", "PLV within"), ("p_duration", "p (duration)"),
+                ("beyond_chance", "longer than chance")]
         head = "".join(f"<th>{esc(h)}</th>" for _, h in cols)
-        body = "".join("<tr>" + "".join(f"<td>{esc(fmt_num(r[c]) if isinstance(r[c], float) else r[c])}</td>"
-                                        for c, _ in cols) + "</tr>" for _, r in ep.head(_MAX_ROWS).iterrows())
+        body = "".join("<tr>" + "".join(f"<td>{esc(_cell(r[c]))}</td>" for c, _ in cols) + "</tr>"
+                       for _, r in ep.head(_MAX_ROWS).iterrows())
         more = f"<p class='small'>{len(ep) - _MAX_ROWS} more rows in epochs.csv.</p>" if len(ep) > _MAX_ROWS else ""
         parts.append(f"<details><summary>All {len(ep)} epoch(s)</summary><table><thead><tr>{head}</tr></thead>"
                      f"<tbody>{body}</tbody></table>{more}</details>")

@@ -185,6 +185,10 @@ def test_epochs_refuse_trials_and_windows_longer_than_the_record():
         syncstats.analyze({"a": trials, "b": trials}, fs=FS, n_surrogates=0, epochs=True)
     with pytest.raises(SyncstatsInputError, match="epoch window"):
         locking_epochs(_pair(duration=60.0), fs=FS, n_surrogates=0, window_cycles=500)
+    sig = _pair(duration=60.0)
+    with pytest.raises(SyncstatsInputError, match="no pair is tested"):
+        syncstats.analyze({**sig, "C": sig["A"][::-1].copy()}, fs=FS, measures=("order_parameter",),
+                          n_surrogates=0, epochs=True)
 
 
 def test_save_writes_the_epoch_files_and_the_report_section(tmp_path):
@@ -245,3 +249,14 @@ def test_study_with_epochs(tmp_path):
     assert rc == 0
     sm = pd.read_csv(tmp_path / "st" / "epochs_summary.csv", keep_default_na=False)
     assert sorted(sm.recording) == sorted(pd.read_csv(man).recording)
+
+
+def test_each_epoch_is_set_against_the_longest_epoch_under_the_null():
+    sig, ev = _one_epoch(4)
+    res = locking_epochs(sig, fs=FS, events=ev, pairs=[("heart", "breath")], ratios=["4:1"],
+                         surrogate="time_shift", n_surrogates=39, rng=2, n_bootstrap=0)
+    e = res.epochs.iloc[0]
+    assert e.p_duration == 1 / 40 and bool(e.beyond_chance)
+    phases, _ = _hand_built()
+    none = locking_epochs(phases=phases, fs=FS, n_surrogates=0, window_cycles=5, min_s=0, n_bootstrap=0).epochs
+    assert none.p_duration.isna().all() and none.beyond_chance.isna().all()

@@ -167,4 +167,4 @@ def test_locked_share_interval_covers_the_expected_share():
     for i in range(R_COVER):
         sm = _run(*_alternating(60_000 + i), n_surrogates=0, n_bootstrap=499, rng=i).summary.iloc[0]
         hits.append(sm.share_ci_low <= truth <= sm.share_ci_high)
-    assert np.mean(hits) >= 0.8, f"coverage {np.mean(hits):.2f} of the 95% interval at R = {R_COVER}"
+    assert np.mean(hits) >= (0.88 if FULL else 0.8), f"coverage {np.mean(hits):.2f} of the 95% interval at R = {R_COVER}"
