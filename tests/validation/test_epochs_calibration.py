@@ -84,7 +84,9 @@ def _recovered(epochs, tol_s):
 def test_known_epochs_are_recovered_within_half_a_window():
     # Tolerance: half a window of the locking index (5 cycles of the slower rhythm,
     # 18.5 s at 0.27 Hz) at each boundary — the resolution of a window-based rule.
-    # Measured (R = 30, seeds 0-29): 29/30 recovered; the miss is one epoch split in two.
+    # Measured (R = 30, seeds 0-29): 28/30 recovered (seeds 9 and 27 miss: one epoch split
+    # in two, one chance plateau merged into an epoch); median boundary errors 4.2 s (start)
+    # and 5.3 s (end).
     tol_s = 5 / BREATH_HZ
     hits = [_recovered(_run(*_known_epochs(seed), n_surrogates=0).epochs, tol_s) for seed in range(R_RECOVERY)]
     assert np.mean(hits) >= 0.9, f"recovered in {np.mean(hits):.2f} of {R_RECOVERY} runs"
@@ -102,6 +104,7 @@ def _rejections(make, surrogate, replicas, seed0, **kw):
 def test_chance_plateaus_near_an_integer_ratio_are_not_epochs_under_the_time_shift_null():
     # Uncoupled pair near 4:1: plateaus of psi pass the detection rule in most records
     # (any-epoch share far above alpha), but the total-locked-time test keeps its level.
+    # Measured (R = 60, seeds 10000-10059): chance epochs in 0.92 of records, FPR 0.017.
     fpr, naive = _rejections(_near_integer_null, "time_shift", R_NULL, 10_000)
     lo, hi = band(R_NULL)
     assert naive > 0.3, f"chance epochs in only {naive:.2f} of the null records: the scenario lost its plateaus"
@@ -120,16 +123,20 @@ def test_total_locked_time_keeps_its_level_on_independent_phase_oscillators():
 
 
 def test_total_locked_time_under_iaaft_on_the_near_integer_pair():
+    # Measured (R = 60, seeds 30000-30059): FPR 0.083 (band upper 0.133), null mean 77 s
+    # against 94 s observed: IAAFT phases wander more than the self-sustained rhythm's, so
+    # this null is somewhat liberal for epochs (a note in the result says so).
     fpr, _ = _rejections(_near_integer_null, "iaaft", R_NULL_IAAFT, 30_000)
     assert fpr <= fpr_upper(R_NULL_IAAFT), f"FPR {fpr:.3f} above {fpr_upper(R_NULL_IAAFT):.3f}"
 
 
 def test_known_epochs_are_detected_as_significant():
+    # Measured (R = 10): p <= 0.05 in 10/10 with time_shift.
     sig = [bool(_run(*_known_epochs(40_000 + i), rng=i).summary.p_value.iloc[0] <= ALPHA) for i in range(R_POWER)]
     assert np.mean(sig) >= 0.8, f"power {np.mean(sig):.2f} at R = {R_POWER}"
 
 
-R_TRUTH = 200 if FULL else 60
+R_TRUTH = 200 if FULL else 40
 R_COVER = 100 if FULL else 30
 
 
