@@ -19,8 +19,8 @@ from . import inference as inf
 from ._errors import SyncstatsInputError, SyncstatsWarning
 from ._inputs import collect_inputs
 from ._options import check_options
-from .nulls import LEVEL_NOTES, SURROGATE_METHODS
 from .epochs import check_epoch_options, combine_epochs, run_epochs
+from .nulls import LEVEL_NOTES, SURROGATE_METHODS
 from .pipeline import Pipeline
 from .results import ResultData, build_table, finalize_table
 
