@@ -301,6 +301,9 @@ class EpochResult:
         ``time_s`` (window centres), ``index`` (windowed PLV), ``null_low``,
         ``null_high`` (pointwise 2.5 % and 97.5 % of the surrogates' index; absent
         without surrogates) and ``threshold`` (for the report's figure).
+    null : dict (signal_a, signal_b, p, q) -> dict of arrays
+        The null distributions: ``total_s`` and ``longest_s`` of every surrogate (S,)
+        (empty without surrogates).
     options : EpochOptions
     notes : tuple of str
     """
@@ -308,6 +311,7 @@ class EpochResult:
     epochs: pd.DataFrame
     summary: pd.DataFrame
     curves: dict = field(default_factory=dict)
+    null: dict = field(default_factory=dict)
     options: EpochOptions = field(default_factory=EpochOptions)
     notes: tuple = ()
 
@@ -357,7 +361,7 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
         null = inf.null_distribution(pipe, fam, surrogate, n_surrogates, eseed, options=options,
                                      batch_size=batch_size, memory_mb=memory_mb, executor=executor, n_jobs=n_jobs)
     ep_rows, sm_rows, curves, pos = [], [], {}, 0
-    totals, longests, nulls_t, nulls_l, floors = [], [], [], [], []
+    totals, longests, nulls_t, nulls_l, floors, null_by_key = [], [], [], [], [], {}
     boot_root = tuple(seed.spawn_key) + (EPOCH_STREAM, 1)
     for i, k in enumerate(keys):
         nw = fam.n_windows(k)
@@ -397,6 +401,7 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
             curve["null_low"], curve["null_high"] = np.quantile(ni, [0.025, 0.975], axis=0)
             nulls_t.append(nt)
             nulls_l.append(nl)
+            null_by_key[(k.a, k.b, k.p, k.q)] = {"total_s": nt.copy(), "longest_s": nl.copy()}
             row.update(null_mean_s=float(nt.mean()), null_sd_s=float(nt.std(ddof=1)) if nt.size > 1 else np.nan,
                        null_longest_mean_s=float(nl.mean()))
             for er in ep_rows[len(ep_rows) - len(runs):]:  # this key's epochs against the longest under the null
@@ -446,7 +451,7 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
                      "an uncoupled pair near 4:1); time_shift keeps each rhythm's own dynamics")
     notes.insert(0, f"epochs: psi within a circular SD of {opt.tolerance:.3g} rad (windowed PLV >= {opt.threshold:.3g}) "
                     f"over {opt.window_cycles} cycles, epochs of at least {opt.min_cycles:g} cycles and {opt.min_s:g} s")
-    return EpochResult(epochs, summary, curves, opt, tuple(notes))
+    return EpochResult(epochs, summary, curves, null_by_key, opt, tuple(notes))
 
 
 def combine_epochs(found) -> EpochResult | None:
@@ -461,7 +466,7 @@ def combine_epochs(found) -> EpochResult | None:
     return EpochResult(
         epochs=pd.concat([f.epochs for f in found], ignore_index=True),
         summary=pd.concat([f.summary for f in found], ignore_index=True),
-        curves=found[0].curves, options=found[0].options,
+        curves=found[0].curves, null=found[0].null, options=found[0].options,
         notes=tuple(dict.fromkeys(sum((list(f.notes) for f in found), [])))
         + ("epochs: each recording's total-locked-time tests are corrected within that recording",),
     )

@@ -12,9 +12,9 @@ import pytest
 import syncstats
 from syncstats import SyncstatsInputError
 from syncstats.cli import main
+from syncstats.epochs import (EPOCH_COLUMNS, SUMMARY_COLUMNS, _batch_stats, check_epoch_options, combine_epochs,
+                              detect_epochs, locked_runs, locking_epochs, locking_index)
 from syncstats.simulate import beat_train, scenario
-from syncstats.epochs import (EPOCH_COLUMNS, SUMMARY_COLUMNS, _batch_stats, check_epoch_options, detect_epochs,
-                              locked_runs, locking_epochs, locking_index)
 
 FS = 10.0
 STRIDE = 10  # samples per cycle of B (1 Hz at 10 Hz)
@@ -143,6 +143,9 @@ def test_a_known_epoch_is_found_and_its_locked_time_is_significant():
     assert abs(ep.start_s.iloc[0] - 150) < 15 and abs(ep.end_s.iloc[0] - 300) < 15
     sm = res.summary.set_index("ratio")
     assert sm.loc["4:1", "p_value"] == 1 / 40 and sm.loc["5:1", "total_locked_s"] == 0
+    nt = res.null[("heart", "breath", 4, 1)]["total_s"]
+    assert nt.shape == (39,) and np.mean(nt) == pytest.approx(sm.loc["4:1", "null_mean_s"])
+    assert np.all(nt < sm.loc["4:1", "total_locked_s"])
     assert sm.loc["4:1", "share_ci_low"] <= sm.loc["4:1", "locked_share"] <= sm.loc["4:1", "share_ci_high"]
 
 
@@ -260,3 +263,13 @@ def test_each_epoch_is_set_against_the_longest_epoch_under_the_null():
     phases, _ = _hand_built()
     none = locking_epochs(phases=phases, fs=FS, n_surrogates=0, window_cycles=5, min_s=0, n_bootstrap=0).epochs
     assert none.p_duration.isna().all() and none.beyond_chance.isna().all()
+
+
+def test_results_of_several_recordings_are_stacked_and_keep_their_families():
+    phases, _ = _hand_built()
+    kw = dict(phases=phases, fs=FS, window_cycles=5, min_s=0, n_bootstrap=0, n_surrogates=0)
+    a, b = locking_epochs(recording="r1", **kw), locking_epochs(recording="r2", **kw)
+    both = combine_epochs([a, None, b])
+    assert both.summary.recording.tolist() == ["r1", "r2"] and len(both.epochs) == 2 * len(a.epochs)
+    assert any("corrected within that recording" in n for n in both.notes)
+    assert combine_epochs([None]) is None and combine_epochs([a]) is a
