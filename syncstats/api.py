@@ -19,6 +19,7 @@ from . import inference as inf
 from ._errors import SyncstatsInputError, SyncstatsWarning
 from ._inputs import collect_inputs
 from ._options import check_options
+from .epochs import check_epoch_options, combine_epochs, run_epochs
 from .nulls import LEVEL_NOTES, SURROGATE_METHODS
 from .pipeline import Pipeline
 from .results import ResultData, build_table, finalize_table
@@ -73,6 +74,7 @@ def analyze(
     recording=None,
     group_label="group",
     progress=None,
+    epochs=None,
 ) -> AnalysisResult:
     """Test whether recorded rhythms are phase-locked, against surrogate data.
 
@@ -157,6 +159,12 @@ def analyze(
         Name written to the ``recording`` column.
     progress : callable, optional
         Called with the number of surrogates finished after each batch.
+    epochs : bool or mapping, optional
+        Also find synchronization epochs of every pair x ratio over the whole span and
+        test their total locked time against the same surrogate method
+        (:func:`syncstats.locking_epochs`); True uses the defaults, a mapping sets
+        ``tolerance``, ``window_cycles``, ``min_cycles``, ``min_s``. The result's
+        ``.epochs`` holds them; ``save`` writes epochs.csv and epochs_summary.csv.
 
     Returns
     -------
@@ -174,6 +182,7 @@ def analyze(
     1.0
     """
     started = _now()
+    eopt = check_epoch_options(epochs)
     opt = check_options(
         measures=measures, surrogate=surrogate, n_surrogates=n_surrogates, correction=correction, alpha=alpha,
         rng=rng, protophase_correction=protophase_correction, edge_s=edge_s, min_shift_s=min_shift_s,
@@ -206,6 +215,7 @@ def analyze(
     intervals = inf.row_intervals(design.family, pipe.data, opt.seed, n_resamples=opt.n_bootstrap,
                                   level=opt.ci_level, method=opt.ci_method)
     diags = pipe.diagnostics()
+    found = None if eopt is None else run_epochs(pipe, design, eopt, opt, inputs, executor=executor)
     table = build_table(
         design, recording=inputs.recording, time_s=pipe.time_s, fs=pipe.inputs.fs, observed=observed, test=test,
         ratios=chosen, intervals=intervals, preferred_phase=pref, n_cycles=ncyc,
@@ -221,14 +231,16 @@ def analyze(
     return AnalysisResult(
         table=table,
         diagnostics=_diagnostics_frame(diags, pipe.inputs),
-        params=_params(opt, inputs, pipe, design, options, level, ratios, started, plan),
+        params=_params(opt, inputs, pipe, design, options, level, ratios, started, plan)
+        | ({} if eopt is None else {"epochs": eopt.as_params()}),
         null_distribution=None if null is None else np.ascontiguousarray(null.T),
         phase_differences=design.psi_samples(pipe.data),
         phases={n: pipe.data[n][0] for n in inputs.names},
         time_s=pipe.time_s.copy(),
         events={n: e.copy() for n, e in inputs.events.items()},
-        notes=tuple(lead + list(pipe.notes) + notes + list(test.notes)),
+        notes=tuple(lead + list(pipe.notes) + notes + list(test.notes) + (list(found.notes) if found else [])),
         inputs=tuple(inputs.sources),
+        epochs=found,
     )
 
 
@@ -378,6 +390,7 @@ def combine_results(results, *, correct_across: bool = True) -> AnalysisResult:
         null_distribution=null,
         notes=tuple(notes),
         inputs=tuple(sorted({p for r in results for p in r.inputs})),
+        epochs=combine_epochs([r.epochs for r in results]),
     )
 
 

@@ -127,6 +127,11 @@ CONFIG_KEYS = {
     "annotation": _str,
     "time_column": _str,
     "allow_truncated": _flag,
+    "epochs": _flag,
+    "epoch_tolerance": _num(0, 3.141592653589793, open_low=True),
+    "epoch_window": _whole(2),
+    "epoch_min_cycles": _num(0),
+    "epoch_min_s": _num(0),
 }
 
 
@@ -191,6 +196,18 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
     opt("--time-column", "name of the time column in a table", dest="time_column")
     opt("--allow-truncated", "analyse a cut-off EDF/BDF/WFDB file up to its last complete record (a warning says "
         "what was cut)", dest="allow_truncated", action="store_const", const=True)
+    from .epochs import EPOCH_DEFAULTS as ed
+
+    opt("--epochs", "also find synchronization epochs (stretches in which psi stays within the tolerance) and "
+        "test their total locked time against the surrogates; writes epochs.csv and epochs_summary.csv",
+        action="store_const", const=True)
+    opt("--epoch-tolerance", f"largest circular SD of psi within a window, radians (default {ed['tolerance']:.4g}, "
+        "i.e. pi/4); implies --epochs", dest="epoch_tolerance")
+    opt("--epoch-window", f"window of the locking index, cycles of the slower rhythm (default "
+        f"{ed['window_cycles']}); implies --epochs", dest="epoch_window")
+    opt("--epoch-min-cycles", f"shortest epoch, cycles of the slower rhythm (default {ed['min_cycles']:g}); "
+        "implies --epochs", dest="epoch_min_cycles")
+    opt("--epoch-min-s", f"shortest epoch, seconds (default {ed['min_s']:g}); implies --epochs", dest="epoch_min_s")
     opt("--config", "TOML file with any of these options (command-line options win)")
     opt("--out", "output folder (must not exist or be empty)", required=True)
     opt("--overwrite", "replace an existing output folder", action="store_true")
@@ -399,6 +416,11 @@ def _analysis_kwargs(opts, quiet):
             raise SyncstatsInputError(f"--ratios: {err}") from None
     if "measures" in opts:
         kw["measures"] = tuple(_split(opts["measures"]))
+    settings = {k: opts[f"epoch_{o}"] for k, o in (("tolerance", "tolerance"), ("window_cycles", "window"),
+                                                 ("min_cycles", "min_cycles"), ("min_s", "min_s"))
+                if f"epoch_{o}" in opts}
+    if opts.get("epochs") or settings:
+        kw["epochs"] = settings or True
     jobs = int(opts.get("jobs", 1))
     if jobs > 1:
         kw.update(executor="processes", n_jobs=jobs)

@@ -194,6 +194,8 @@ class ResultData:
         Plain-language statements for the report (null level, what was corrected ...).
     inputs : tuple of str
         Input files as the user named them (for provenance).
+    epochs : syncstats.epochs.EpochResult or None
+        Synchronization epochs and their test (``analyze(epochs=...)``); None when not asked.
     """
 
     table: pd.DataFrame
@@ -206,3 +208,4 @@ class ResultData:
     events: dict = field(default_factory=dict)
     notes: tuple = ()
     inputs: tuple = ()
+    epochs: Any = None

@@ -175,6 +175,7 @@ class StudyResult:
     n_computed: int = 0
     n_cached: int = 0
     recording_notes: dict = field(default_factory=dict)
+    epochs: object = None  # syncstats.epochs.EpochResult of every recording (analyze option epochs)
 
     @property
     def n_failed(self) -> int:
@@ -338,7 +339,7 @@ def _analyze_one(job: dict) -> dict:
         notes = list(dict.fromkeys(str(w.message) for w in caught if issubclass(w.category, SyncstatsWarning)))
         notes += [n for n in rec.notes]
         return {"ok": True, "table": res.table, "diagnostics": res.diagnostics, "notes": notes,
-                "params": res.params}
+                "params": res.params, "epochs": res.epochs}
     except SyncstatsInputError as err:
         return {"ok": False, "reason": str(err)}
     except (KeyboardInterrupt, SystemExit):
@@ -703,7 +704,14 @@ def analyze_study(
         manifest=mf, params=params, notes=tuple(notes), inputs=tuple(dict.fromkeys(inputs)),
         n_computed=n_computed, n_cached=n_cached,
         recording_notes={mf.at[i, "recording"]: tuple(outs[i]["notes"]) for i in sorted(outs)},
+        epochs=_combine_epochs([outs[i].get("epochs") for i in sorted(outs)]),
     )
+
+
+def _combine_epochs(found):
+    from .epochs import combine_epochs
+
+    return combine_epochs(found)
 
 
 def _tell(progress, name, status):

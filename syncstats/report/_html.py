@@ -40,6 +40,7 @@ from ._common import (
     verdict,
 )
 from ..results import COLUMN_SPEC
+from ._epochs import epochs_section
 from ._methods import CAUTION, methods_text
 from ._provenance import build_provenance
 
@@ -541,6 +542,7 @@ def render_html(result, *, max_figure_pairs: int = MAX_FIGURE_PAIRS, provenance:
     add("ratios", "Reading the ratios", _ratio_block(summaries) if summaries else "")
     add("pairs", "Pair by pair", _pair_cards(result, summaries, max_figure_pairs) if summaries else "")
     add("group", "All pairs at once", _group_block(result) if len(names) >= 3 else "")
+    add("epochs", "Stretches of locking", epochs_section(result, esc))
     add("numbers", "The numbers", _results_table(table, summaries))
     add("checks", "Signal checks", _diagnostics(result))
     add("method", "How it was done", _notes_block(result) + _method_block(result, prov))

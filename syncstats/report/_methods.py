@@ -14,6 +14,7 @@ from ..inference import CORRECTION_METHODS
 from ..measures import MEASURE_METHODS
 from ..nulls import SURROGATE_METHODS
 from ._common import fmt_level, ratio_words
+from ._epochs import epochs_methods
 
 __all__ = ["methods_text", "write_methods_md", "CAUTION"]
 
@@ -32,6 +33,8 @@ REFERENCES = {
     "schafer1999": "Schäfer C, et al. (1999). Phys Rev E 60:857–870.",
     "phipson2010": "Phipson B, Smyth GK (2010). Stat Appl Genet Mol Biol 9:39.",
     "efron1993": "Efron B, Tibshirani RJ (1993). An Introduction to the Bootstrap. Chapman & Hall.",
+    "bartsch2007": "Bartsch R, Kantelhardt JW, Penzel T, Havlin S (2007). Phys Rev Lett 98:054102.",
+    "toledo2002": "Toledo E, Akselrod S, Pinhas I, Aravot D (2002). Med Eng Phys 24:45–52.",
 }
 
 _NULL_LEVEL_TEXT = {
@@ -323,6 +326,10 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     ci = _ci_sentence(params, table, cite)
     if ci:
         para.append(ci)
+
+    ep = epochs_methods(result, cite)
+    if ep:
+        para.append(ep)
 
     seed = params.get("seed_entropy")
     if seed is not None:

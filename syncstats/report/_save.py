@@ -5,7 +5,7 @@ from pathlib import Path
 
 from .._errors import SyncstatsInputError
 from ..results import ResultData
-from . import _html, _methods, _provenance, _table
+from . import _epochs, _html, _methods, _provenance, _table
 from .._atomic import OutputFolder, write_folder_atomically
 
 __all__ = ["save_result", "OUTPUT_FILES"]
@@ -15,7 +15,8 @@ OUTPUT_FILES = ("results.csv", "report.html", "methods.md", "provenance.json")
 
 
 def save_result(result: ResultData, out_dir, *, overwrite: bool = False, record_paths: bool | None = None) -> Path:
-    """Write results.csv, report.html, methods.md and provenance.json into ``out_dir``.
+    """Write results.csv, report.html, methods.md and provenance.json into ``out_dir``
+    (and epochs.csv, epochs_summary.csv when the result carries epochs).
 
     Parameters
     ----------
@@ -65,7 +66,7 @@ def save_result(result: ResultData, out_dir, *, overwrite: bool = False, record_
             _table.write_results_csv(result, folder / "results.csv"),
             _html.write_report_html(result, folder / "report.html", provenance=prov),
             _methods.write_methods_md(result, folder / "methods.md"),
-        ]
+        ] + _epochs.write_epoch_files(result, folder)
         _provenance.write_provenance_json(result, folder / "provenance.json",
                                           output_files=written, record=prov)
 

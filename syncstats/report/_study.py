@@ -308,7 +308,9 @@ def study_provenance(study, output_files=()) -> dict:
 
 
 def save_study(study, out_dir, *, overwrite: bool = False) -> Path:
-    """Write the five study files into ``out_dir`` at once, or nothing at all."""
+    """Write the five study files into ``out_dir`` at once, or nothing at all (plus
+    epochs.csv and epochs_summary.csv when the recordings were analysed with epochs)."""
+    from ._epochs import write_epoch_files
 
     def build(folder: Path) -> None:
         study.table.to_csv(folder / "results.csv", index=False, encoding="utf-8", lineterminator="\n")
@@ -316,6 +318,7 @@ def save_study(study, out_dir, *, overwrite: bool = False) -> Path:
         (folder / "report.html").write_text(render_study_html(study), encoding="utf-8")
         (folder / "methods.md").write_text(study_methods_text(study), encoding="utf-8")
         files = ["results.csv", "study_results.csv", "report.html", "methods.md"]
+        files += [p.name for p in write_epoch_files(study, folder)]
         rec = study_provenance(study, output_files=files + ["provenance.json"])
         (folder / "provenance.json").write_text(json.dumps(rec, indent=2, allow_nan=False), encoding="utf-8")
 

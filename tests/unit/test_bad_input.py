@@ -62,6 +62,10 @@ CASES = [
     ("window-outside", {"a": A, "b": B}, {"windows": [(0.0, 500.0)]}, ["window", "outside"]),
     ("window-too-few-cycles", {"a": A, "b": B}, {"windows": 5.0}, ["5 s", "at least 10 cycles", "windows of at least"]),
     ("negative-seed", {"a": A, "b": B}, {"rng": -3}, ["seed", "non-negative"]),
+    ("epochs-not-a-flag", {"a": A, "b": B}, {"epochs": "yes"}, ["epochs", "True, False or a mapping"]),
+    ("epochs-tolerance", {"a": A, "b": B}, {"epochs": {"tolerance": -0.1}}, ["epoch tolerance", "radians"]),
+    ("epochs-unknown-setting", {"a": A, "b": B}, {"epochs": {"minimum": 3}}, ["minimum", "accepted"]),
+    ("epochs-window-too-long", {"a": A, "b": B}, {"epochs": {"window_cycles": 1000}}, ["epoch window", "cycles"]),
 ]
 
 

@@ -32,3 +32,12 @@ def test_reviewer():
 def test_pipeline_author(tmp_path):
     tab = _load("pipeline_author").main(str(tmp_path))
     assert set(tab.ratio) == {"3:1", "4:1"}
+
+
+def test_epochs(tmp_path):
+    found = _load("epochs").main(str(tmp_path))
+    assert (tmp_path / "report" / "epochs.csv").is_file()
+    # the demo's 4:1 epoch (15-150 s) and 3:1 epoch (315-450 s) are found
+    ep = found.epochs
+    assert ((ep.ratio == "4:1") & (ep.start_s < 30) & (ep.end_s > 135)).any()
+    assert ((ep.ratio == "3:1") & (ep.start_s < 330) & (ep.end_s > 435)).any()
