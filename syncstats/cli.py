@@ -164,7 +164,9 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
         dest="pairs")
     opt("--ratios", "comma-separated p:q ratios (A makes p cycles while B makes q), or 'auto' (default: 1:1)")
     opt("--measures", f"comma-separated, from: {', '.join(measures)} (default: {','.join(_default('measures'))})")
-    opt("--surrogate", f"one of: {', '.join(surrogates)} (default: {_default('surrogate')})")
+    opt("--surrogate", f"one of: {', '.join(surrogates)} (default: {_default('surrogate')}); several, e.g. "
+        "iaaft,time_shift, test the same data against each (the first fills results.csv; the report says which "
+        "to believe, null_comparison.csv lists all)")
     opt("--n-surrogates", f"surrogates to draw (default {_default('n_surrogates')}; 0 = measures only)",
         dest="n_surrogates")
     opt("--correction", f"one of: {', '.join(corrections)} (default: {_default('correction')})")
@@ -431,11 +433,18 @@ def _run_analyze(args):
         recs = [sio.read_recording(args.input, **read_kw)]
     kw = _analysis_kwargs(opts, args.quiet)
     n_sur = kw.get("n_surrogates", _default("n_surrogates"))
+    nulls = _surrogate_list(kw)
+    run = analyze
+    if len(nulls) > 1:
+        from .compare import compare_nulls
+
+        kw.pop("surrogate")
+        run = lambda rec, **k: compare_nulls(rec, surrogates=nulls, **k)  # noqa: E731
     results = []
     for rec in recs:
-        tick, close = _progress(n_sur, args.quiet)
+        tick, close = _progress(n_sur * len(nulls), args.quiet)
         try:
-            results.append(analyze(rec, fs=rec.fs, recording=rec.name, progress=tick, **kw))
+            results.append(run(rec, fs=rec.fs, recording=rec.name, progress=tick, **kw))
         finally:
             close()
     res = results[0] if len(results) == 1 else combine_results(results)
@@ -449,10 +458,22 @@ def _run_analyze(args):
     return 0
 
 
+def _surrogate_list(kw) -> tuple:
+    """The nulls named by --surrogate (one, or several separated by commas)."""
+    if "surrogate" not in kw or "," not in str(kw["surrogate"]):
+        return (kw.get("surrogate"),)
+    from .compare import parse_surrogates
+
+    return parse_surrogates(kw["surrogate"], "--surrogate")
+
+
 def _run_study(args):
     from .study import analyze_study
 
     opts = _options(args)
+    if len(_surrogate_list(opts)) > 1:
+        raise SyncstatsInputError("--surrogate with several nulls applies to 'syncstats analyze' only; give a "
+                                  "study one null, e.g. --surrogate iaaft.")
     if opts.get("events"):
         raise SyncstatsInputError("--events does not apply to a study; list event files in the manifest's "
                                   "'events' column (NAME=FILE;NAME=FILE).")

@@ -191,6 +191,12 @@ class ResultData:
         Plain-language statements for the report (null level, what was corrected ...).
     inputs : tuple of str
         Input files as the user named them (for provenance).
+    rhythm_views : dict name -> dict of small arrays
+        For the report's signal figure: power spectrum and pass band, a short raw and
+        band-passed stretch with its phase, event times (``syncstats._views``).
+    null_comparison : pandas.DataFrame or None
+        When several nulls were run on the same data (``syncstats.compare_nulls``): one
+        row per table row x null with its p-values and which null to believe.
     """
 
     table: pd.DataFrame
@@ -203,3 +209,5 @@ class ResultData:
     events: dict = field(default_factory=dict)
     notes: tuple = ()
     inputs: tuple = ()
+    rhythm_views: dict = field(default_factory=dict)
+    null_comparison: pd.DataFrame | None = None

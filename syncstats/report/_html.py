@@ -23,7 +23,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import _figures
+from . import _compare, _figures
 from ._common import (
     PairSummary,
     evidence_order,
@@ -107,6 +107,7 @@ th,td{padding:6px 9px;text-align:right;white-space:nowrap;border-bottom:1px soli
 th{background:#f8f6f1;font-weight:650;position:sticky;top:0;color:#3a4752}
 td.t,th.t{text-align:left}
 td.w{text-align:left;white-space:normal;min-width:200px;color:var(--brick);font-size:11.5px;line-height:1.35}
+td.w2{text-align:left;white-space:normal;min-width:280px;font-size:12px;line-height:1.4}
 tr.sig td{background:#f1f8f6}
 tr.sig td.mark{color:var(--teal);font-weight:700}
 details{margin-top:10px}
@@ -538,6 +539,7 @@ def render_html(result, *, max_figure_pairs: int = MAX_FIGURE_PAIRS, provenance:
 
     add("findings", "What we found",
         f'<div class="card">{_question(result, summaries)}{_verdict_list(summaries)}</div>')
+    add("nulls", "Which null to believe", _compare.null_section(result))
     add("ratios", "Reading the ratios", _ratio_block(summaries) if summaries else "")
     add("pairs", "Pair by pair", _pair_cards(result, summaries, max_figure_pairs) if summaries else "")
     add("group", "All pairs at once", _group_block(result) if len(names) >= 3 else "")
