@@ -11,7 +11,9 @@ Two things, both computed at the analysis stage (the report computes nothing):
     a steady amplitude (CV about 0.03-0.07 on the simulated limit cycles, 0.25 on
     phase-coherent chaos, 0.43-0.65 on noise-driven damped oscillators, 60 s records).
   - ``rate_drift``: range of the mean frequency over the span's four quarters, relative
-    to the mean frequency over the whole span (0 = the same rate throughout).
+    to the mean frequency over the whole span (0 = the same rate throughout), and
+    ``rate_change_p``: one-way ANOVA p-value of "every quarter has the same rate" on the
+    rates of 32 equal blocks (:func:`rate_change`).
 
 * :func:`rhythm_views` -- small, thinned arrays for the report's signal figure: each
   continuous signal's power spectrum (Welch) with its pass band, and a short stretch of
@@ -24,7 +26,7 @@ from scipy import signal as _sig
 
 from .prep import bandpass, detrend
 
-__all__ = ["rhythm_diagnostics", "rhythm_views", "TRACE_CYCLES", "MAX_POINTS"]
+__all__ = ["rate_change", "rhythm_diagnostics", "rhythm_views", "TRACE_CYCLES", "MAX_POINTS"]
 
 #: cycles of the slowest rhythm in the trace stretch
 TRACE_CYCLES = 8
@@ -32,17 +34,33 @@ TRACE_CYCLES = 8
 MAX_POINTS = 800
 
 
-def _quarter_rates(ph: np.ndarray, fs: float) -> np.ndarray:
-    """Mean frequency (Hz) in each quarter of an unwrapped phase (n,)."""
+def rate_change(ph: np.ndarray, fs: float, *, blocks: int = 32) -> tuple[float, float]:
+    """(relative range of the quarter rates, p-value that the rate is the same in every quarter).
+
+    The span is cut into ``blocks`` equal blocks (8 per quarter); the mean rate of each
+    block is one observation and a one-way ANOVA (``scipy.stats.f_oneway``) asks whether
+    the quarters share one mean rate. Block rates of a stationary rhythm whose phase
+    diffuses are independent (increments of the phase), so the F-test holds its level
+    there; a rhythm whose rate steps or drifts between epochs gives a small p.
+    """
+    from scipy import stats
+
     ph = ph[np.isfinite(ph)]
-    if ph.size < 8:
-        return np.full(4, np.nan)
-    edges = np.linspace(0, ph.size - 1, 5).astype(int)
-    return np.array([(ph[b] - ph[a]) / (2 * np.pi) / ((b - a) / fs) for a, b in zip(edges[:-1], edges[1:])])
+    if ph.size < 4 * blocks:
+        return float("nan"), float("nan")
+    edges = np.linspace(0, ph.size - 1, blocks + 1).astype(int)
+    r = np.array([(ph[b] - ph[a]) / (2 * np.pi) / ((b - a) / fs) for a, b in zip(edges[:-1], edges[1:])])
+    whole = (ph[-1] - ph[0]) / (2 * np.pi) / ((ph.size - 1) / fs)
+    groups = r.reshape(4, -1)
+    q = groups.mean(axis=1)
+    rel = float((q.max() - q.min()) / abs(whole)) if whole else float("nan")
+    if np.ptp(r) == 0:
+        return rel, 1.0
+    return rel, float(stats.f_oneway(*groups).pvalue)
 
 
 def rhythm_diagnostics(pipe) -> dict:
-    """name -> {"amplitude_cv": float, "rate_drift": float} on the analysed span."""
+    """name -> {"amplitude_cv", "rate_drift", "rate_change_p"} on the analysed span."""
     fs = pipe.inputs.fs
     out = {}
     for n in pipe.names:
@@ -50,12 +68,8 @@ def rhythm_diagnostics(pipe) -> dict:
         cv = float("nan")
         if amp is not None and np.size(amp) > 1 and np.mean(amp) > 0:
             cv = float(np.std(amp) / np.mean(amp))
-        ph = np.asarray(pipe.data[n][0], dtype=float)
-        q = _quarter_rates(ph, fs)
-        ok = ph[np.isfinite(ph)]
-        whole = (ok[-1] - ok[0]) / (2 * np.pi) / ((ok.size - 1) / fs) if ok.size > 1 else np.nan
-        drift = float((np.nanmax(q) - np.nanmin(q)) / abs(whole)) if np.isfinite(q).all() and whole else float("nan")
-        out[n] = {"amplitude_cv": cv, "rate_drift": drift}
+        drift, p = rate_change(np.asarray(pipe.data[n][0], dtype=float), fs)
+        out[n] = {"amplitude_cv": cv, "rate_drift": drift, "rate_change_p": p}
     return out
 
 
