@@ -359,12 +359,20 @@ def _parse_band(item):
     return name.strip(), (lo, hi)
 
 
-def _progress(total, quiet):
-    if quiet or total == 0 or not sys.stderr.isatty():
+#: the progress line: count, bar, share, and the estimated time left
+PROGRESS_FORMAT = "surrogates {n_fmt}/{total_fmt} |{bar}| {percentage:3.0f}% · about {remaining} left"
+
+
+def _progress(total, quiet, stream=None, mininterval=0.2):
+    """(tick, close) of a progress bar on a terminal; the estimate of the time left comes
+    from the mean time per surrogate so far (tqdm)."""
+    stream = sys.stderr if stream is None else stream
+    if quiet or total == 0 or not stream.isatty():
         return None, lambda: None
     from tqdm import tqdm
 
-    bar = tqdm(total=total, unit="surrogate", file=sys.stderr, leave=False)
+    bar = tqdm(total=total, unit="surrogate", file=stream, leave=False, bar_format=PROGRESS_FORMAT,
+               smoothing=0, mininterval=mininterval)
     return bar.update, bar.close
 
 

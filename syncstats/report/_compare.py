@@ -91,8 +91,8 @@ def null_section(result) -> str:
                      f"<span class=\"small\">It misleads when: {_esc(e.failure_cases)}</span></li>")
     primary = methods[0]
     intro = (f"<p>The same data were tested against {len(methods)} nulls with the same seed. Each assumes "
-             "something different about what independent rhythms look like, so they can disagree. The table "
-             f"and figures above use {_esc(surrogate_name(primary))} (the first named). Which null to believe "
+             "something different about what independent rhythms look like, so they can disagree. The verdicts, "
+             f"pair figures and table of this report use {_esc(surrogate_name(primary))} (the first named). Which null to believe "
              "for each row was decided from the signal checks alone, before looking at any p-value, so the "
              "believed null's p-value keeps its level.</p>")
     parts = [intro, f"<ul>{''.join(items)}</ul>"]
