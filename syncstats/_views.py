@@ -28,7 +28,7 @@ from .prep import bandpass, detrend
 
 __all__ = ["rate_change", "rhythm_diagnostics", "rhythm_views", "TRACE_CYCLES", "MAX_POINTS"]
 
-#: cycles of the slowest rhythm in the trace stretch
+#: cycles of each rhythm in its trace stretch
 TRACE_CYCLES = 8
 #: at most this many points per drawn curve
 MAX_POINTS = 800
@@ -98,26 +98,22 @@ def rhythm_views(pipe, diagnostics=None) -> dict:
 
     Keys: ``kind``; ``freq_hz``, ``power``, ``band`` (continuous signals); ``t``,
     ``raw``, ``filtered``, ``phase`` (wrapped to (-pi, pi]) over the first
-    ``TRACE_CYCLES`` cycles of the slowest rhythm of the span; ``events`` (event
+    ``TRACE_CYCLES`` cycles of that rhythm on the span; ``events`` (event
     rhythms: the event times inside the stretch).
     """
     inp, fs = pipe.inputs, pipe.inputs.fs
     t = pipe.time_s
-    rates = []
-    for n in pipe.names:
-        ph = np.asarray(pipe.data[n][0], dtype=float)
-        ok = ph[np.isfinite(ph)]
-        if ok.size > 1 and ok[-1] != ok[0]:
-            rates.append(abs(ok[-1] - ok[0]) / (2 * np.pi) / ((ok.size - 1) / fs))
-    slow = min(rates) if rates else 1.0
-    length = int(min(t.size, max(16, round(TRACE_CYCLES / slow * fs))))
-    sl = slice(pipe.i0, pipe.i0 + length)
     f0s = {}
     if diagnostics is not None and len(diagnostics):
         f0s = dict(zip(diagnostics["signal"], diagnostics["dominant_freq_hz"].astype(float)))
     out = {}
     for n in pipe.names:
         kind = inp.kinds[n]
+        whole = np.asarray(pipe.data[n][0], dtype=float)
+        ok = whole[np.isfinite(whole)]
+        rate = abs(ok[-1] - ok[0]) / (2 * np.pi) / ((ok.size - 1) / fs) if ok.size > 1 else 0.0
+        length = int(min(t.size, max(16, round(TRACE_CYCLES / rate * fs) if rate > 0 else t.size)))
+        sl = slice(pipe.i0, pipe.i0 + length)
         ph = np.angle(np.exp(1j * np.asarray(pipe.data[n][0][:length], dtype=float)))
         v = {"kind": kind}
         if kind == "signal":

@@ -360,7 +360,10 @@ def draw_pair(s: PairSummary, result) -> tuple[Figure | None, list[str]]:
         for ax in list(fig.axes):
             num = ax.get_subplotspec().num1
             ax.set_subplotspec(new_gs[num // cols, num % cols])
-        fig.tight_layout(pad=1.0, w_pad=2.2, h_pad=2.0)
+        # constrained layout makes room for legends outside the axes (the time panel's ratio
+        # legend); tight_layout does not, and let that legend run into the next panel's label
+        fig.set_layout_engine("constrained", w_pad=0.08, h_pad=0.1, wspace=0.04, hspace=0.06)
+        fig.canvas.draw()
         fig.set_layout_engine("none")  # laid out once; no second layout pass when saving
         return fig, captions
 
@@ -375,7 +378,7 @@ def _spectrum_panel(ax, name, v, f0) -> bool:
         ax.text(0.5, 0.5, "event times: no spectrum", ha="center", va="center", transform=ax.transAxes,
                 color=PALETTE["muted"])
         ax.set_axis_off()
-        ax.set_title(f"{plain(name)}", loc="left")
+        ax.set_title(f"{_short(name)}", loc="left")
         return False
     f, pxx = np.asarray(f, float), np.asarray(pxx, float)
     band = v.get("band")
@@ -385,12 +388,17 @@ def _spectrum_panel(ax, name, v, f0) -> bool:
     if f0 is not None and np.isfinite(f0):
         ax.axvline(f0, color=PALETTE["observed"], lw=1.2, ls="--")
     ax.set_xlim(0, float(f[-1]))
-    ax.set_xlabel("frequency (Hz)")
+    btxt = f"band {band[0]:.3g}–{band[1]:.3g} Hz" if band is not None else "no band-pass"
+    ax.set_xlabel(f"frequency (Hz); {btxt}")
     ax.set_ylabel("power")
     ax.set_yticklabels([], minor=True)
-    btxt = f", band {band[0]:.3g}–{band[1]:.3g} Hz" if band is not None else ", no band-pass"
-    ax.set_title(f"{plain(name)}: spectrum{btxt}", loc="left")
+    ax.set_title(f"{_short(name)}: spectrum", loc="left")
     return True
+
+
+def _short(name, n: int = 22) -> str:
+    name = str(name)
+    return plain(name if len(name) <= n else name[: n - 1] + "…")
 
 
 def _trace_panel(ax, name, v):
@@ -445,21 +453,23 @@ def draw_signals(result) -> tuple[Figure | None, str]:
         for k, n in enumerate(names):
             _spectrum_panel(fig.add_subplot(gs[k, 0]), n, views[n], f0s.get(n))
             _trace_panel(fig.add_subplot(gs[k, 1]), n, views[n])
-        fig.tight_layout(pad=1.0, w_pad=2.0, h_pad=1.6)
+        fig.set_layout_engine("constrained", w_pad=0.08, h_pad=0.1, wspace=0.04, hspace=0.08)
+        fig.canvas.draw()
         fig.set_layout_engine("none")
     more = f" {len(views) - len(names)} more signal(s) are not drawn." if len(views) > len(names) else ""
     cap = ("Left: each signal's power spectrum (Welch) with the pass band used for its phase shaded and its "
            "dominant frequency dashed. Right: the first seconds of the analysed span — the raw signal (grey, "
            "mean removed), the band-passed signal the phase comes from (teal) and the phase (amber dots, right "
-           "axis); event rhythms show their event times (red) and the phase interpolated between them."
+           "axis), over about eight of the rhythm's own cycles; event rhythms show their event times (red) and the phase interpolated between them."
            " A phase is meaningful where the band-passed trace follows the raw rhythm cycle by cycle." + more)
     return fig, cap
 
 
 def signal_figure(result) -> tuple[str | None, str]:
     """Data URI of :func:`draw_signals` and its caption (None, "" when nothing to draw)."""
-    fig, cap = draw_signals(result)
-    return (to_data_uri(fig), cap) if fig is not None else (None, "")
+    with matplotlib.rc_context(_RC):
+        fig, cap = draw_signals(result)
+        return (to_data_uri(fig), cap) if fig is not None else (None, "")
 
 
 def group_figure(table: pd.DataFrame, morder: list, *, max_maps: int = 6):

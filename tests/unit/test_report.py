@@ -647,6 +647,7 @@ def test_signal_figure_marks_events():
     v = res.rhythm_views["beats"]
     assert v["kind"] == "events" and len(v["events"]) >= 5
     assert np.all((v["events"] >= v["t"][0]) & (v["events"] <= v["t"][-1] + 1 / fs))
+    assert 5 <= len(v["events"]) <= 12  # about eight of its own cycles
     fig, _ = draw_signals(res)
     texts = {t.get_text() for ax in fig.axes if ax.get_legend() for t in ax.get_legend().get_texts()}
     assert "events" in texts
