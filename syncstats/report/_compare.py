@@ -64,12 +64,12 @@ def _reading(rows: pd.DataFrame) -> str:
         return head + " None of these nulls fits this data (see the reasons), so none is to be believed here."
     b = best.iloc[0]
     m = str(b["surrogate"])
-    tail = f" Believe {surrogate_name(m)} (p = {fmt_p(b['p_value'])}, corrected {fmt_p(b['p_adjusted'])}): " \
-           f"{b['reason']}."
+    tail = f" Believe the {surrogate_name(m)} null (p = {fmt_p(b['p_value'])}, corrected " \
+           f"{fmt_p(b['p_adjusted'])}): {b['reason']}."
     if _sig(b["significant"]):
         tail += " Under the null that fits, independence is rejected."
     elif b["assessment"] == "weak":
-        tail += " It does not reject, but it has little power here: the data neither show nor exclude locking; " \
+        tail += " It does not reject, and with so little power the data neither show nor exclude locking; " \
                 "a longer record would."
     else:
         tail += " Under the null that fits, there is no evidence of locking."
@@ -97,7 +97,7 @@ def null_section(result) -> str:
              "believed null's p-value keeps its level.</p>")
     parts = [intro, f"<ul>{''.join(items)}</ul>"]
     head = ["pair (A / B)", "ratio", "window (s)"] + [f"{surrogate_name(m)}: p (corrected)" for m in methods] + \
-           ["believe", "reading"]
+           ["believe"]
     out = ['<div class="tablewrap"><table><thead><tr>'
            + "".join(f'<th class="t">{_esc(h)}</th>' for h in head) + "</tr></thead><tbody>"]
     groups = list(comp.groupby(_KEYS, sort=False, dropna=False))
@@ -115,10 +115,8 @@ def null_section(result) -> str:
                          + ("" if r["assessment"] == "fits" else f" [{r['assessment']}]"))
         best = rows[rows["recommended"].astype(bool)]
         cells.append(surrogate_name(best.iloc[0]["surrogate"]) if not best.empty else "none fits")
-        cells.append(_reading(rows))
-        out.append("<tr>" + "".join(
-            f'<td class="{"w2" if k == len(cells) - 1 else "t"}">{_esc(c)}</td>' for k, c in enumerate(cells))
-            + "</tr>")
+        out.append('<tr class="cmp">' + "".join(f'<td class="t">{_esc(c)}</td>' for c in cells) + "</tr>")
+        out.append(f'<tr class="reading"><td class="w2" colspan="{len(cells)}">{_esc(_reading(rows))}</td></tr>')
     out.append("</tbody></table></div>")
     parts.append("".join(out))
     if len(groups) > MAX_COMPARISON_ROWS:

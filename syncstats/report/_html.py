@@ -107,7 +107,8 @@ th,td{padding:6px 9px;text-align:right;white-space:nowrap;border-bottom:1px soli
 th{background:#f8f6f1;font-weight:650;position:sticky;top:0;color:#3a4752}
 td.t,th.t{text-align:left}
 td.w{text-align:left;white-space:normal;min-width:200px;color:var(--brick);font-size:11.5px;line-height:1.35}
-td.w2{text-align:left;white-space:normal;min-width:280px;font-size:12px;line-height:1.4}
+td.w2{text-align:left;white-space:normal;font-size:12.5px;line-height:1.45;color:var(--ink);padding-bottom:10px}
+tr.cmp td{border-bottom:none}
 tr.sig td{background:#f1f8f6}
 tr.sig td.mark{color:var(--teal);font-weight:700}
 details{margin-top:10px}

@@ -139,7 +139,7 @@ def test_report_states_assumptions_and_which_null_to_believe(short_regular, tmp_
 
         assert html.escape(SURROGATE_METHODS[m].null_hypothesis) in page
         assert html.escape(SURROGATE_METHODS[m].failure_cases) in page
-    assert "Believe time-shifted" in page and "neither show nor exclude locking" in page
+    assert "Believe the time-shifted null" in page and "neither show nor exclude locking" in page
     assert "How the null to believe is chosen" in page
     comp = pd.read_csv(out / "null_comparison.csv")
     assert comp["surrogate"].tolist() == ["iaaft", "time_shift"]
@@ -168,3 +168,11 @@ def test_command_line_runs_several_nulls(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "--surrogate" in err and "time_shiftt" in err and "Traceback" not in err
     assert not (tmp_path / "bad").exists()
+
+
+def test_a_study_takes_one_null(tmp_path, capsys):
+    assert main(["study", str(tmp_path / "manifest.csv"), "--surrogate", "iaaft,time_shift",
+                 "--out", str(tmp_path / "s")]) == 2
+    err = capsys.readouterr().err
+    assert "--surrogate" in err and "'syncstats analyze' only" in err
+    assert not (tmp_path / "s").exists()
