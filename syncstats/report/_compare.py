@@ -16,7 +16,7 @@ import pandas as pd
 from ..nulls import SURROGATE_METHODS
 from ._common import fmt_num, fmt_p, is_missing, surrogate_name
 
-__all__ = ["write_null_comparison_csv", "null_section", "methods_sentence", "MAX_COMPARISON_ROWS"]
+__all__ = ["write_null_comparison_csv", "null_section", "findings_note", "methods_sentence", "MAX_COMPARISON_ROWS"]
 
 #: rows of the comparison shown on the page (the CSV holds all)
 MAX_COMPARISON_ROWS = 60
@@ -129,6 +129,25 @@ def null_section(result) -> str:
         parts.append("<details><summary>How the null to believe is chosen</summary><ol>"
                      + "".join(f"<li>{_esc(r)}</li>" for r in rules) + "</ol></details>")
     return '<div class="card">' + "".join(parts) + "</div>"
+
+
+def findings_note(result) -> str:
+    """One line under the verdicts: the verdicts use the first null; where another is believed."""
+    if not _has(result):
+        return ""
+    comp = result.null_comparison
+    methods = list(dict.fromkeys(comp["surrogate"].astype(str)))
+    best = comp[comp["recommended"].astype(bool)]
+    other = best[best["surrogate"].astype(str) != methods[0]]
+    n_rows = len(comp.groupby(_KEYS, sort=False, dropna=False))
+    txt = (f"These verdicts use {surrogate_name(methods[0])} surrogates; the data were also tested against "
+           f"{', '.join(surrogate_name(m) for m in methods[1:])}.")
+    if len(other):
+        txt += (f" For {len(other)} of {n_rows} rows the signal checks point to another null: see "
+                "“Which null to believe” before reading these verdicts.")
+    else:
+        txt += " See “Which null to believe” for what each assumes."
+    return f'<p class="small" style="margin-top:10px"><a href="#nulls">{_esc(txt)}</a></p>'
 
 
 def methods_sentence(result) -> str:

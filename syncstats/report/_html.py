@@ -588,7 +588,8 @@ def render_html(result, *, max_figure_pairs: int = MAX_FIGURE_PAIRS, provenance:
             sections.append((sid, title, _section(sid, num, title, body)))
 
     add("findings", "What we found",
-        f'<div class="card">{_question(result, summaries)}{_verdict_list(summaries)}</div>')
+        f'<div class="card">{_question(result, summaries)}{_verdict_list(summaries)}'
+        f"{_compare.findings_note(result)}</div>")
     add("nulls", "Which null to believe", _compare.null_section(result))
     add("ratios", "Reading the ratios", _ratio_block(summaries) if summaries else "")
     add("pairs", "Pair by pair", _pair_cards(result, summaries, max_figure_pairs) if summaries else "")

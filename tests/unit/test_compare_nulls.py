@@ -141,6 +141,9 @@ def test_report_states_assumptions_and_which_null_to_believe(short_regular, tmp_
         assert html.escape(SURROGATE_METHODS[m].failure_cases) in page
     assert "Believe the time-shifted null" in page and "neither show nor exclude locking" in page
     assert "How the null to believe is chosen" in page
+    # the verdicts (first null) point to the section where another null is believed
+    findings = page[page.index('<section id="findings">'):page.index('<section id="nulls">')]
+    assert "For 1 of 1 rows the signal checks point to another null" in findings and 'href="#nulls"' in findings
     comp = pd.read_csv(out / "null_comparison.csv")
     assert comp["surrogate"].tolist() == ["iaaft", "time_shift"]
     assert "null_comparison.csv" in (out / "methods.md").read_text()
