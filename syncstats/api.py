@@ -20,6 +20,7 @@ from ._errors import SyncstatsInputError, SyncstatsWarning
 from ._inputs import collect_inputs
 from ._options import check_options
 from .epochs import check_epoch_options, combine_epochs, run_epochs
+from ._views import rhythm_diagnostics, rhythm_views
 from .nulls import LEVEL_NOTES, SURROGATE_METHODS
 from .pipeline import Pipeline
 from .results import ResultData, build_table, finalize_table
@@ -204,6 +205,8 @@ def analyze(
         method_warn = _method_warnings(opt.surrogate, pipe, options)
         if plan is not None and plan.exact:
             null = inf.exact_shift_null(plan, design, pipe.span_n)
+            if opt.progress is not None:  # one step: every shift at once
+                opt.progress(opt.n_surrogates)
         else:
             null = inf.null_distribution(pipe, design.family, opt.surrogate, opt.n_surrogates, opt.seed,
                                          options=options, batch_size=opt.batch_size, memory_mb=opt.memory_mb,
@@ -226,11 +229,12 @@ def analyze(
     shift_warn = [plan.row_warning(i) for i in range(len(design.rows))] if plan is not None else []
     for w in dict.fromkeys(sum(method_warn.values(), []) + [w for w in shift_warn if w]):
         warnings.warn(w, SyncstatsWarning, stacklevel=2)
+    diag_frame = _diagnostics_frame(diags, pipe.inputs, rhythm_diagnostics(pipe))
     lead = [f"null: {opt.surrogate} {LEVEL_NOTES[level]}"] if null is not None else [
         "no surrogates drawn: measures only, no test"]
     return AnalysisResult(
         table=table,
-        diagnostics=_diagnostics_frame(diags, pipe.inputs),
+        diagnostics=diag_frame,
         params=_params(opt, inputs, pipe, design, options, level, ratios, started, plan)
         | ({} if eopt is None else {"epochs": eopt.as_params()}),
         null_distribution=None if null is None else np.ascontiguousarray(null.T),
@@ -241,6 +245,7 @@ def analyze(
         notes=tuple(lead + list(pipe.notes) + notes + list(test.notes) + (list(found.notes) if found else [])),
         inputs=tuple(inputs.sources),
         epochs=found,
+        rhythm_views=rhythm_views(pipe, diag_frame),
     )
 
 
@@ -275,7 +280,8 @@ def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates, plan
     return out
 
 
-def _diagnostics_frame(diags, inputs):
+def _diagnostics_frame(diags, inputs, extra=None):
+    extra = extra or {}
     return pd.DataFrame([
         {
             "signal": d.signal,
@@ -288,6 +294,7 @@ def _diagnostics_frame(diags, inputs):
             "method": d.method,
             "band": "" if d.band is None else f"{d.band[0]:.4g}-{d.band[1]:.4g} Hz",
             "warnings": "; ".join(d.warnings),
+            **extra.get(d.signal, {}),
         }
         for d in diags
     ])
@@ -378,6 +385,9 @@ def combine_results(results, *, correct_across: bool = True) -> AnalysisResult:
         if note:
             notes.append(note)
     notes.append(f"{len(results)} recordings analysed; figures show '{rec_long}', the longest")
+    comps = [r.null_comparison for r in results if r.null_comparison is not None]
+    if comps:  # each recording's own comparison (p_adjusted within the recording)
+        longest = replace(longest, null_comparison=pd.concat(comps, ignore_index=True))
     params = dict(longest.params)
     params["recordings"] = [r.table["recording"].iloc[0] if len(r.table) else "" for r in results]
     params["started_at"] = min(r.params["started_at"] for r in results)

@@ -169,7 +169,9 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
         dest="pairs")
     opt("--ratios", "comma-separated p:q ratios (A makes p cycles while B makes q), or 'auto' (default: 1:1)")
     opt("--measures", f"comma-separated, from: {', '.join(measures)} (default: {','.join(_default('measures'))})")
-    opt("--surrogate", f"one of: {', '.join(surrogates)} (default: {_default('surrogate')})")
+    opt("--surrogate", f"one of: {', '.join(surrogates)} (default: {_default('surrogate')}); several, e.g. "
+        "iaaft,time_shift, test the same data against each (the first fills results.csv; the report says which "
+        "to believe, null_comparison.csv lists all)")
     opt("--n-surrogates", f"surrogates to draw (default {_default('n_surrogates')}; 0 = measures only)",
         dest="n_surrogates")
     opt("--correction", f"one of: {', '.join(corrections)} (default: {_default('correction')})")
@@ -374,12 +376,20 @@ def _parse_band(item):
     return name.strip(), (lo, hi)
 
 
-def _progress(total, quiet):
-    if quiet or total == 0 or not sys.stderr.isatty():
+#: the progress line: count, bar, share, and the estimated time left
+PROGRESS_FORMAT = "surrogates {n_fmt}/{total_fmt} |{bar}| {percentage:3.0f}% · about {remaining} left"
+
+
+def _progress(total, quiet, stream=None, mininterval=0.2):
+    """(tick, close) of a progress bar on a terminal; the estimate of the time left comes
+    from the mean time per surrogate so far (tqdm)."""
+    stream = sys.stderr if stream is None else stream
+    if quiet or total == 0 or not stream.isatty():
         return None, lambda: None
     from tqdm import tqdm
 
-    bar = tqdm(total=total, unit="surrogate", file=sys.stderr, leave=False)
+    bar = tqdm(total=total, unit="surrogate", file=stream, leave=False, bar_format=PROGRESS_FORMAT,
+               smoothing=0, mininterval=mininterval)
     return bar.update, bar.close
 
 
@@ -453,11 +463,18 @@ def _run_analyze(args):
         recs = [sio.read_recording(args.input, **read_kw)]
     kw = _analysis_kwargs(opts, args.quiet)
     n_sur = kw.get("n_surrogates", _default("n_surrogates"))
+    nulls = _surrogate_list(kw)
+    run = analyze
+    if len(nulls) > 1:
+        from .compare import compare_nulls
+
+        kw.pop("surrogate")
+        run = lambda rec, **k: compare_nulls(rec, surrogates=nulls, **k)  # noqa: E731
     results = []
     for rec in recs:
-        tick, close = _progress(n_sur, args.quiet)
+        tick, close = _progress(n_sur * len(nulls), args.quiet)
         try:
-            results.append(analyze(rec, fs=rec.fs, recording=rec.name, progress=tick, **kw))
+            results.append(run(rec, fs=rec.fs, recording=rec.name, progress=tick, **kw))
         finally:
             close()
     res = results[0] if len(results) == 1 else combine_results(results)
@@ -471,10 +488,22 @@ def _run_analyze(args):
     return 0
 
 
+def _surrogate_list(kw) -> tuple:
+    """The nulls named by --surrogate (one, or several separated by commas)."""
+    if "surrogate" not in kw or "," not in str(kw["surrogate"]):
+        return (kw.get("surrogate"),)
+    from .compare import parse_surrogates
+
+    return parse_surrogates(kw["surrogate"], "--surrogate")
+
+
 def _run_study(args):
     from .study import analyze_study
 
     opts = _options(args)
+    if len(_surrogate_list(opts)) > 1:
+        raise SyncstatsInputError("--surrogate with several nulls applies to 'syncstats analyze' only; give a "
+                                  "study one null, e.g. --surrogate iaaft.")
     if opts.get("events"):
         raise SyncstatsInputError("--events does not apply to a study; list event files in the manifest's "
                                   "'events' column (NAME=FILE;NAME=FILE).")

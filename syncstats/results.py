@@ -196,6 +196,12 @@ class ResultData:
         Input files as the user named them (for provenance).
     epochs : syncstats.epochs.EpochResult or None
         Synchronization epochs and their test (``analyze(epochs=...)``); None when not asked.
+    rhythm_views : dict name -> dict of small arrays
+        For the report's signal figure: power spectrum and pass band, a short raw and
+        band-passed stretch with its phase, event times (``syncstats._views``).
+    null_comparison : pandas.DataFrame or None
+        When several nulls were run on the same data (``syncstats.compare_nulls``): one
+        row per table row x null with its p-values and which null to believe.
     """
 
     table: pd.DataFrame
@@ -209,3 +215,5 @@ class ResultData:
     notes: tuple = ()
     inputs: tuple = ()
     epochs: Any = None
+    rhythm_views: dict = field(default_factory=dict)
+    null_comparison: pd.DataFrame | None = None

@@ -232,14 +232,20 @@ class NullJob:
         return pl.phases(raw=raw, events=events, phases=phases, spectra=spectra, batch=stop - start)
 
 
+#: with a progress callback, batches are cut so that progress moves in at least this many
+#: steps (results do not depend on the batch size; only the vectorisation is coarser)
+PROGRESS_STEPS = 20
+
+
 def null_distribution(pipeline, family: Family, method: str, n_surrogates: int, seed, *, options=None,
                       batch_size=None, memory_mb=DEFAULT_MEMORY_MB, executor=None, n_jobs=None,
                       progress=None) -> np.ndarray:
     """The family's values on ``n_surrogates`` surrogates: ndarray (S, F).
 
     ``batch_size`` is an upper bound on the surrogates per batch; the batch is further
-    capped so that its working memory stays under ``memory_mb`` (None: no cap). Neither
-    changes results.
+    capped so that its working memory stays under ``memory_mb`` (None: no cap), and with a
+    ``progress`` callback at ``ceil(n_surrogates / PROGRESS_STEPS)`` so that progress moves
+    even when every surrogate would fit in one batch. None of these changes results.
     """
     job = NullJob(pipeline, family, method, seed, dict(options or {}))
     size = batch_for_budget(pipeline, memory_mb) if memory_mb is not None else None
@@ -247,6 +253,8 @@ def null_distribution(pipeline, family: Family, method: str, n_surrogates: int, 
         size = int(batch_size) if size is None else min(size, int(batch_size))
     if size is None:
         size = max(1, n_surrogates)
+    if progress is not None:  # at least PROGRESS_STEPS steps, however many fit in one batch
+        size = min(size, max(1, -(-n_surrogates // PROGRESS_STEPS)))
     parts = map_batches(job, batch_bounds(n_surrogates, size), executor=executor, n_jobs=n_jobs,
                         progress=progress)
     return np.concatenate([np.reshape(x, (-1, len(family))) for x in parts], axis=0)

@@ -18,6 +18,7 @@ import base64
 import io
 
 import matplotlib
+import matplotlib.lines
 import numpy as np
 import pandas as pd
 from matplotlib.backends.backend_agg import FigureCanvasAgg
@@ -323,6 +324,13 @@ _PAIR_PANELS = (
 
 def pair_figure(s: PairSummary, result) -> tuple[str | None, list[str]]:
     """One figure per pair (up to five panels). Returns (data URI or None, captions)."""
+    with matplotlib.rc_context(_RC):
+        fig, captions = draw_pair(s, result)
+        return (to_data_uri(fig), captions) if fig is not None else (None, [])
+
+
+def draw_pair(s: PairSummary, result) -> tuple[Figure | None, list[str]]:
+    """The pair's figure as a matplotlib ``Figure`` (laid out) and its captions."""
     head = s.headline
     if head is None:
         return None, []
@@ -352,9 +360,116 @@ def pair_figure(s: PairSummary, result) -> tuple[str | None, list[str]]:
         for ax in list(fig.axes):
             num = ax.get_subplotspec().num1
             ax.set_subplotspec(new_gs[num // cols, num % cols])
-        fig.tight_layout(pad=1.0, w_pad=2.2, h_pad=2.0)
+        # constrained layout makes room for legends outside the axes (the time panel's ratio
+        # legend); tight_layout does not, and let that legend run into the next panel's label
+        fig.set_layout_engine("constrained", w_pad=0.08, h_pad=0.1, wspace=0.04, hspace=0.06)
+        fig.canvas.draw()
         fig.set_layout_engine("none")  # laid out once; no second layout pass when saving
-        return to_data_uri(fig), captions
+        return fig, captions
+
+
+#: signals drawn in the signal figure (the page says when more exist)
+MAX_SIGNAL_ROWS = 8
+
+
+def _spectrum_panel(ax, name, v, f0) -> bool:
+    f, pxx = v.get("freq_hz"), v.get("power")
+    if f is None or pxx is None or np.size(f) < 2:
+        ax.text(0.5, 0.5, "event times: no spectrum", ha="center", va="center", transform=ax.transAxes,
+                color=PALETTE["muted"])
+        ax.set_axis_off()
+        ax.set_title(f"{_short(name)}", loc="left")
+        return False
+    f, pxx = np.asarray(f, float), np.asarray(pxx, float)
+    band = v.get("band")
+    if band is not None:
+        ax.axvspan(band[0], band[1], color=PALETTE["data_soft"], alpha=0.7, lw=0)
+    ax.semilogy(f, np.maximum(pxx, np.max(pxx) * 1e-8), color=PALETTE["ink"], lw=1.1)
+    if f0 is not None and np.isfinite(f0):
+        ax.axvline(f0, color=PALETTE["observed"], lw=1.2, ls="--")
+    ax.set_xlim(0, float(f[-1]))
+    btxt = f"band {band[0]:.3g}–{band[1]:.3g} Hz" if band is not None else "no band-pass"
+    ax.set_xlabel(f"frequency (Hz); {btxt}")
+    ax.set_ylabel("power")
+    ax.set_yticklabels([], minor=True)
+    ax.set_title(f"{_short(name)}: spectrum", loc="left")
+    return True
+
+
+def _short(name, n: int = 22) -> str:
+    name = str(name)
+    return plain(name if len(name) <= n else name[: n - 1] + "…")
+
+
+def _trace_panel(ax, name, v):
+    t = np.asarray(v.get("t", []), float)
+    if t.size < 2:
+        ax.set_axis_off()
+        return
+    handles = []
+    if v.get("raw") is not None:
+        raw = np.asarray(v["raw"], float)
+        filt = np.asarray(v["filtered"], float)
+        # the raw trace is drawn around its own mean so that it sits on the filtered one
+        handles += ax.plot(t, raw - np.nanmean(raw), color=PALETTE["null"], lw=0.8, label="raw (mean removed)")
+        handles += ax.plot(t, filt, color=PALETTE["data"], lw=1.4, label="band-passed")
+        ax.set_ylabel("signal")
+    else:
+        ax.set_yticks([])
+    ev = np.asarray(v.get("events", []), float)
+    if ev.size:
+        for e in ev:
+            ax.axvline(e, color=PALETTE["alert"], lw=0.8, alpha=0.7)
+        handles.append(matplotlib.lines.Line2D([], [], color=PALETTE["alert"], lw=0.8, label="events"))
+    tw = ax.twinx()
+    tw.plot(t, np.asarray(v["phase"], float), ls="none", marker=".", ms=2.2, color=PALETTE["observed"])
+    handles.append(matplotlib.lines.Line2D([], [], ls="none", marker=".", color=PALETTE["observed"],
+                                           label="phase (right axis)"))
+    tw.set_ylim(-np.pi * 1.08, np.pi * 1.08)
+    tw.set_yticks([-np.pi, 0, np.pi])
+    tw.set_yticklabels(["−π", "0", "π"])
+    tw.spines["right"].set_visible(True)
+    ax.set_xlabel("time (s)")
+    ax.set_xlim(t[0], t[-1])
+    # above the axes, never over the traces
+    ax.legend(handles=handles, loc="lower left", bbox_to_anchor=(0.0, 1.01), ncol=len(handles), borderaxespad=0.0,
+              handlelength=1.2, columnspacing=1.0, frameon=False)
+
+
+def draw_signals(result) -> tuple[Figure | None, str]:
+    """Each rhythm's spectrum with its pass band (left) and a short stretch of the raw and
+    band-passed signal with its phase and events (right)."""
+    views = getattr(result, "rhythm_views", None) or {}
+    names = list(views)[:MAX_SIGNAL_ROWS]
+    if not names:
+        return None, ""
+    d = result.diagnostics
+    f0s = {}
+    if d is not None and not d.empty and "dominant_freq_hz" in d:
+        f0s = dict(zip(d["signal"].astype(str), d["dominant_freq_hz"].astype(float)))
+    with matplotlib.rc_context(_RC):
+        fig = _new_figure((PANEL_W * 3, 2.3 * len(names)))
+        gs = fig.add_gridspec(len(names), 2, width_ratios=(1, 2))
+        for k, n in enumerate(names):
+            _spectrum_panel(fig.add_subplot(gs[k, 0]), n, views[n], f0s.get(n))
+            _trace_panel(fig.add_subplot(gs[k, 1]), n, views[n])
+        fig.set_layout_engine("constrained", w_pad=0.08, h_pad=0.1, wspace=0.04, hspace=0.08)
+        fig.canvas.draw()
+        fig.set_layout_engine("none")
+    more = f" {len(views) - len(names)} more signal(s) are not drawn." if len(views) > len(names) else ""
+    cap = ("Left: each signal's power spectrum (Welch) with the pass band used for its phase shaded and its "
+           "dominant frequency dashed. Right: the first seconds of the analysed span — the raw signal (grey, "
+           "mean removed), the band-passed signal the phase comes from (teal) and the phase (amber dots, right "
+           "axis), over about eight of the rhythm's own cycles; event rhythms show their event times (red) and the phase interpolated between them."
+           " A phase is meaningful where the band-passed trace follows the raw rhythm cycle by cycle." + more)
+    return fig, cap
+
+
+def signal_figure(result) -> tuple[str | None, str]:
+    """Data URI of :func:`draw_signals` and its caption (None, "" when nothing to draw)."""
+    with matplotlib.rc_context(_RC):
+        fig, cap = draw_signals(result)
+        return (to_data_uri(fig), cap) if fig is not None else (None, "")
 
 
 def group_figure(table: pd.DataFrame, morder: list, *, max_maps: int = 6):

@@ -23,7 +23,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import _figures
+from . import _compare, _figures
 from ._common import (
     PairSummary,
     evidence_order,
@@ -108,6 +108,8 @@ th,td{padding:6px 9px;text-align:right;white-space:nowrap;border-bottom:1px soli
 th{background:#f8f6f1;font-weight:650;position:sticky;top:0;color:#3a4752}
 td.t,th.t{text-align:left}
 td.w{text-align:left;white-space:normal;min-width:200px;color:var(--brick);font-size:11.5px;line-height:1.35}
+td.w2{text-align:left;white-space:normal;font-size:12.5px;line-height:1.45;color:var(--ink);padding-bottom:10px}
+tr.cmp td{border-bottom:none}
 tr.sig td{background:#f1f8f6}
 tr.sig td.mark{color:var(--teal);font-weight:700}
 details{margin-top:10px}
@@ -115,6 +117,10 @@ summary{cursor:pointer;color:var(--teal);font-weight:600;font-size:13.5px}
 ul.warn{margin:8px 0 0;padding-left:0;list-style:none}
 ul.warn li{background:var(--brick-soft);border-left:3px solid var(--brick);padding:6px 10px;margin:5px 0;
 font-size:13.5px;border-radius:0 4px 4px 0}
+.pairwarn{border-left:3px solid var(--amber);background:var(--amber-soft);padding:6px 10px;margin-top:10px;
+font-size:13px;border-radius:0 4px 4px 0}
+.pairwarn ul{margin:2px 0 0;padding-left:18px}
+.cardref{margin-top:10px}
 .ok{background:var(--teal-soft);border-left:3px solid var(--teal);padding:6px 10px;font-size:13.5px}
 .methods p{max-width:80ch}
 .mono{font-family:ui-monospace,"DejaVu Sans Mono",Menlo,Consolas,monospace;font-size:12px;
@@ -224,6 +230,7 @@ def _pair_cards(result, summaries: list[PairSummary], max_pairs: int) -> str:
     if not chosen:
         return '<p class="small">No pair has values to draw.</p>'
     chosen_keys = {s.key for s in chosen}
+    signal_warn = _signal_warnings(result)
     cards = []
     for s in chosen:
         label, who, text = verdict(s)
@@ -235,10 +242,7 @@ def _pair_cards(result, summaries: list[PairSummary], max_pairs: int) -> str:
                    f"<figcaption>Panels, left to right and top to bottom:<ol>{caps}</ol></figcaption></figure>")
         else:
             fig = '<p class="small">Nothing to draw for this pair (no phase differences or surrogates were kept).</p>'
-        warn = sorted({w.strip() for ws in s.rows["warnings"].astype(str) for w in ws.split(";") if w.strip()})
-        wtxt = ""
-        if warn:
-            wtxt = '<ul class="warn">' + "".join(f"<li>{esc(w)}</li>" for w in warn) + "</ul>"
+        wtxt = _card_warnings(s, signal_warn)
         cards.append(
             f'<div class="card pair"><h3>{_chip(s.status, label)}{esc(s.label)}</h3>'
             f"<p>{esc(text[:1].upper() + text[1:])}</p>{fig}{wtxt}</div>"
@@ -251,6 +255,49 @@ def _pair_cards(result, summaries: list[PairSummary], max_pairs: int) -> str:
                 f"{len(chosen)} pairs with the strongest evidence only; {len(rest)} more "
                 f"pair(s) appear in the verdicts and the table: {names}.</p>")
     return "".join(cards) + note
+
+
+def _signal_warnings(result) -> dict:
+    """signal -> its own warnings (the diagnostics' and any row warning that names it first)."""
+    out: dict = {}
+    d = result.diagnostics
+    if d is not None and not d.empty and "warnings" in d:
+        for name, v in zip(d["signal"].astype(str), d["warnings"]):
+            out.setdefault(name, [])
+            out[name] += [w for w in _split_warnings(v) if w not in out[name]]
+    if result.table is not None and not result.table.empty:
+        names = set(out) | set(result.table["signal_a"].astype(str)) | set(result.table["signal_b"].astype(str))
+        for v in result.table["warnings"]:
+            for w in _split_warnings(v):
+                who = w.split(": ", 1)[0]
+                if who in names and ": " in w:
+                    out.setdefault(who, [])
+                    if w not in out[who]:
+                        out[who].append(w)
+    return out
+
+
+def _card_warnings(s: PairSummary, signal_warn: dict) -> str:
+    """A pair card's warnings: each signal's own ones by reference to the Signal checks
+    (listed there once), the pair's own ones in one compact box."""
+    rows = sorted({w.strip() for ws in s.rows["warnings"].astype(str) for w in ws.split(";") if w.strip()})
+    members = [s.signal_a] + ([s.signal_b] if s.signal_b else [])
+    if s.is_group:
+        members = list(signal_warn)
+    own = {w for n in members for w in signal_warn.get(n, [])}
+    pair_only = [w for w in rows if w not in own]
+    flagged = [(n, sum(w in rows for w in signal_warn.get(n, []))) for n in members]
+    flagged = [(n, k) for n, k in flagged if k]
+    out = ""
+    if flagged:
+        who = " and ".join(f"{esc(n)} ({k} warning{'s' if k > 1 else ''})" for n, k in flagged)
+        out += (f'<p class="small cardref">Signal checks flagged {who}; they apply to every pair with '
+                f'{"this signal" if len(flagged) == 1 else "these signals"}: see <a href="#checks">Signal '
+                "checks</a>.</p>")
+    if pair_only:
+        out += ('<div class="pairwarn"><b>For this pair:</b><ul>' + "".join(f"<li>{esc(w)}</li>" for w in pair_only)
+                + "</ul></div>")
+    return out
 
 
 def _group_block(result) -> str:
@@ -365,6 +412,10 @@ def _diagnostics(result) -> str:
             "are what to look for.</p>"
             f'<div class="tablewrap">{"".join(rows)}</div>'
         )
+    uri, cap = _figures.signal_figure(result)
+    if uri:
+        parts.append(f'<figure><img src="{uri}" alt="Spectrum and trace of each signal">'
+                     f"<figcaption>{esc(cap)}</figcaption></figure>")
     warns = _all_warnings(result)
     if warns:
         parts.append("<h3 style=\"margin-top:16px\">Warnings</h3><ul class=\"warn\">"
@@ -538,7 +589,9 @@ def render_html(result, *, max_figure_pairs: int = MAX_FIGURE_PAIRS, provenance:
             sections.append((sid, title, _section(sid, num, title, body)))
 
     add("findings", "What we found",
-        f'<div class="card">{_question(result, summaries)}{_verdict_list(summaries)}</div>')
+        f'<div class="card">{_question(result, summaries)}{_verdict_list(summaries)}'
+        f"{_compare.findings_note(result)}</div>")
+    add("nulls", "Which null to believe", _compare.null_section(result))
     add("ratios", "Reading the ratios", _ratio_block(summaries) if summaries else "")
     add("pairs", "Pair by pair", _pair_cards(result, summaries, max_figure_pairs) if summaries else "")
     add("group", "All pairs at once", _group_block(result) if len(names) >= 3 else "")

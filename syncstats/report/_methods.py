@@ -323,6 +323,11 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
         para.append("No surrogates were drawn (n_surrogates = 0), so no significance test was "
                     "made: the values are descriptive only.")
 
+    from ._compare import methods_sentence
+
+    if n_sur > 0 and methods_sentence(result):
+        para.append(methods_sentence(result))
+
     ci = _ci_sentence(params, table, cite)
     if ci:
         para.append(ci)

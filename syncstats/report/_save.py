@@ -5,7 +5,7 @@ from pathlib import Path
 
 from .._errors import SyncstatsInputError
 from ..results import ResultData
-from . import _epochs, _html, _methods, _provenance, _table
+from . import _compare, _epochs, _html, _methods, _provenance, _table
 from .._atomic import OutputFolder, write_folder_atomically
 
 __all__ = ["save_result", "OUTPUT_FILES"]
@@ -67,6 +67,7 @@ def save_result(result: ResultData, out_dir, *, overwrite: bool = False, record_
             _html.write_report_html(result, folder / "report.html", provenance=prov),
             _methods.write_methods_md(result, folder / "methods.md"),
         ] + _epochs.write_epoch_files(result, folder)
+        written += [f for f in [_compare.write_null_comparison_csv(result, folder / "null_comparison.csv")] if f]
         _provenance.write_provenance_json(result, folder / "provenance.json",
                                           output_files=written, record=prov)
 

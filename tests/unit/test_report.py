@@ -560,3 +560,95 @@ def test_missing_values_and_spans_do_not_break_the_page(tmp_path):
         out = save_result(r, tmp_path / "nan")
     text = "".join(_parse((out / "report.html").read_text(encoding="utf-8")).text)
     assert text.count("no value could be computed") == 3
+
+
+# --------------------------------------------------------------------------- what users read
+
+
+@pytest.fixture(scope="module")
+def noisy_channels():
+    """Four channels of broad-band noise around weak rhythms (EEG-like): every signal gets
+    diagnostics warnings, and each of the six pairs uses two of them."""
+    rng = np.random.default_rng(11)
+    fs = 50.0
+    t = np.arange(0, 60, 1 / fs)
+    sig = {f"ch{k}": 0.3 * np.cos(2 * np.pi * (0.9 + 0.07 * k) * t) + rng.normal(size=t.size) for k in range(4)}
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return syncstats.analyze(sig, fs=fs, surrogate="fourier", n_surrogates=19, n_bootstrap=0, rng=11)
+
+
+def _section(page: str, sid: str) -> str:
+    start = page.index(f'<section id="{sid}">')
+    return page[start:page.index("</section>", start)]
+
+
+def test_pair_cards_refer_to_signal_warnings_instead_of_repeating_them(noisy_channels):
+    diag_warn = [w.strip() for v in noisy_channels.diagnostics["warnings"] for w in v.split(";") if w.strip()]
+    assert len(diag_warn) >= 4  # the case the cards used to repeat (one red box per warning per card)
+    page = render_html(noisy_channels, provenance={})
+    cards = _section(page, "pairs")
+    import html as _h
+
+    assert 'class="warn"' not in cards  # no red warning boxes in the cards
+    for w in diag_warn:
+        assert _h.escape(w) not in cards
+    n_cards = cards.count('class="card pair"')
+    assert n_cards == 6
+    assert cards.count('href="#checks"') == n_cards  # each card points to the signal checks
+    assert "Signal checks flagged ch0" in cards
+    checks = _section(page, "checks")
+    for w in diag_warn:  # listed once, in the signal checks
+        assert checks.count(f"<li>{_h.escape(w)}</li>") == 1
+
+
+def test_signal_figure_shows_each_band_and_a_raw_filtered_phase_trace(tested_result):
+    from matplotlib.patches import Rectangle
+
+    from syncstats.report._figures import draw_signals
+
+    views = tested_result.rhythm_views
+    assert set(views) == {"a", "b", "c"}
+    for n, v in views.items():
+        assert v["band"] == tuple(tested_result.params["bands"][n])  # the band the phase used
+        assert len(v["freq_hz"]) <= 800 and len(v["t"]) <= 800  # thinned, small
+        assert len(v["raw"]) == len(v["filtered"]) == len(v["phase"]) == len(v["t"])
+        assert np.all(np.abs(v["phase"]) <= np.pi + 1e-12)
+        # the band-passed trace is the rhythm: it follows the raw signal (shared phase, little noise)
+        assert np.corrcoef(v["raw"], v["filtered"])[0, 1] > 0.8
+    fig, cap = draw_signals(tested_result)
+    axes = [ax for ax in fig.axes]
+    spec_axes = [ax for ax in axes if "spectrum" in ax.get_title(loc="left")]
+    assert len(spec_axes) == 3
+    for ax in spec_axes:
+        name = ax.get_title(loc="left").split(":")[0]
+        lo, hi = tested_result.params["bands"][name]
+        shaded = [p for p in ax.patches if isinstance(p, Rectangle)]
+        assert len(shaded) == 1
+        assert np.isclose(shaded[0].get_x(), lo) and np.isclose(shaded[0].get_x() + shaded[0].get_width(), hi)
+    labels = {t.get_text() for ax in axes if ax.get_legend() for t in ax.get_legend().get_texts()}
+    assert {"raw (mean removed)", "band-passed", "phase (right axis)"} <= labels
+    assert "pass band" in cap
+    page = render_html(tested_result, provenance={})
+    assert 'alt="Spectrum and trace of each signal"' in _section(page, "checks")
+
+
+def test_signal_figure_marks_events():
+    from syncstats.report._figures import draw_signals
+
+    rng = np.random.default_rng(4)
+    fs = 20.0
+    t = np.arange(0, 120, 1 / fs)
+    beats = np.cumsum(0.8 + 0.02 * rng.normal(size=160))
+    res = syncstats.analyze({"breath": np.cos(2 * np.pi * 0.25 * t) + 0.1 * rng.normal(size=t.size)}, fs=fs,
+                            events={"beats": beats[beats < 119]}, ratios=[(1, 5)], n_surrogates=0, n_bootstrap=0)
+    v = res.rhythm_views["beats"]
+    assert v["kind"] == "events" and len(v["events"]) >= 5
+    assert np.all((v["events"] >= v["t"][0]) & (v["events"] <= v["t"][-1] + 1 / fs))
+    assert 5 <= len(v["events"]) <= 12  # about eight of its own cycles
+    fig, _ = draw_signals(res)
+    texts = {t.get_text() for ax in fig.axes if ax.get_legend() for t in ax.get_legend().get_texts()}
+    assert "events" in texts
+    assert any("no spectrum" in t.get_text() for ax in fig.axes for t in ax.texts)
