@@ -94,8 +94,8 @@ class ShiftPlan:
         if self.n_eff[i] >= MIN_EFFECTIVE_SHIFTS:
             return ""
         return (f"only about {self.n_eff[i]:.0f} effectively independent shifts (the PLV stays alike over shifts "
-                f"of {self.corr_len[i] / self.fs:.3g} s), so time_shift has little power here: record longer or "
-                "use iaaft")
+                f"of {self.corr_len[i] / self.fs:.3g} s), so time_shift has little power here: a longer record "
+                "helps; iaaft gains power but rejects independent steady rhythms too often")
 
 
 #: effectively independent shifts below which a shift test can hardly reach p <= 0.05

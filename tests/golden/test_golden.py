@@ -30,6 +30,8 @@ DELIBERATE = {
     "* (fourth)": "ci_low, ci_high, ci_method only, PLV rows of single records: the interval is widened to contain "
     "the parametric bootstrap interval of the fitted noisy phase-difference model (other columns bit-identical, "
     "checked column by column; trial data unchanged)",
+    "phases_time_shift (second)": "warnings only: the little-power warning of time_shift no longer advises iaaft "
+    "(on short regular records IAAFT rejects independent steady rhythms too often)",
 }
 
 
