@@ -191,6 +191,10 @@ class ResultData:
         Plain-language statements for the report (null level, what was corrected ...).
     inputs : tuple of str
         Input files as the user named them (for provenance).
+    trial_locking : syncstats.trial_locking.TrialLocking or None
+        Locking over trials relative to a stimulus (``analyze(trial_locking=True)``).
+    clusters : syncstats.clusters.GroupClusters or None
+        Synchronization clusters of the group (``analyze(clusters=True)``).
     """
 
     table: pd.DataFrame
@@ -203,3 +207,5 @@ class ResultData:
     events: dict = field(default_factory=dict)
     notes: tuple = ()
     inputs: tuple = ()
+    trial_locking: Any = None
+    clusters: Any = None
