@@ -61,10 +61,8 @@ TRIAL_CORRECTIONS = {
                 "which controls the family-wise error at every time point",
 }
 TRIAL_CITATIONS = {
-    "plv": "Lachaux J-P, Rodriguez E, Martinerie J, Varela FJ (1999). Measuring phase synchrony in brain signals. "
-           "Hum Brain Mapp 8:194–208.",
-    "ppc": "Vinck M, van Wingerden M, Womelsdorf T, Fries P, Pennartz CMA (2010). The pairwise phase consistency: "
-           "a bias-free measure of rhythmic neuronal synchronization. NeuroImage 51:112–122.",
+    "plv": "Lachaux J-P, et al. (1999). Hum Brain Mapp 8:194–208.",
+    "ppc": "Vinck M, et al. (2010). NeuroImage 51:112–122.",
     "cluster": "Maris E, Oostenveld R (2007). Nonparametric statistical testing of EEG- and MEG-data. "
                "J Neurosci Methods 164:177–190.",
     "max_stat": "Nichols TE, Holmes AP (2002). Nonparametric permutation tests for functional neuroimaging: a "
