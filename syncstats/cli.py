@@ -127,6 +127,11 @@ CONFIG_KEYS = {
     "annotation": _str,
     "time_column": _str,
     "allow_truncated": _flag,
+    "stimuli": _str,
+    "trial_window": _str,
+    "trial_correction": _str,
+    "trial_threshold": _num(0, 1, True, True),
+    "clusters": _flag,
 }
 
 
@@ -191,6 +196,18 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
     opt("--time-column", "name of the time column in a table", dest="time_column")
     opt("--allow-truncated", "analyse a cut-off EDF/BDF/WFDB file up to its last complete record (a warning says "
         "what was cut)", dest="allow_truncated", action="store_const", const=True)
+    opt("--stimuli", "stimulus times (s, one per line, same clock as the recording): cut trials around them and "
+        "follow the across-trial PLV and PPC over time from the stimulus (needs --trial-window; writes "
+        "trial_locking.csv and trial_stretches.csv)", metavar="FILE")
+    opt("--trial-window", "with --stimuli: each trial's span in seconds relative to its stimulus, e.g. "
+        "--trial-window=-0.5,1.5 (write '=' when START is negative)",
+        dest="trial_window", metavar="START,END")
+    opt("--trial-correction", f"with --stimuli: correction over time points, cluster or max_stat (default: "
+        f"{_default('trial_correction')})", dest="trial_correction")
+    opt("--trial-threshold", f"with --stimuli and cluster correction: pointwise level that forms stretches (default "
+        f"{_default('trial_threshold')})", dest="trial_threshold")
+    opt("--clusters", "also find synchronization clusters among three or more rhythms, with the same surrogates "
+        "(writes clusters.csv, cluster_components.csv and order_parameter.csv)", action="store_const", const=True)
     opt("--config", "TOML file with any of these options (command-line options win)")
     opt("--out", "output folder (must not exist or be empty)", required=True)
     opt("--overwrite", "replace an existing output folder", action="store_true")
@@ -385,7 +402,8 @@ def _analysis_kwargs(opts, quiet):
     """``analyze`` keywords from the options; what is not given keeps analyze's default."""
     kw = {k: opts[k] for k in ("surrogate", "n_surrogates", "correction", "alpha", "bands", "phase_method",
                                 "protophase_correction", "windows", "window_step", "edge_s", "min_shift_s",
-                                "ci_level", "ci_method", "n_bootstrap", "batch_size") if k in opts}
+                                "ci_level", "ci_method", "n_bootstrap", "batch_size", "trial_correction",
+                                "trial_threshold", "clusters") if k in opts}
     if "seed" in opts:
         kw["rng"] = opts["seed"]
     if opts.get("pairs"):
@@ -426,27 +444,78 @@ def _run_analyze(args):
         allow_truncated=bool(opts.get("allow_truncated", False)),
     )
     if opts.get("gaps", "error") == "split":
+        if opts.get("stimuli"):
+            raise SyncstatsInputError("--stimuli cannot be combined with --gaps split; cut the record into "
+                                      "gap-free files first.")
         recs = sio.read_segments(args.input, gaps="split", **read_kw)
     else:
         recs = [sio.read_recording(args.input, **read_kw)]
     kw = _analysis_kwargs(opts, args.quiet)
+    if opts.get("stimuli"):
+        recs, kw = _trials_from_stimuli(recs[0], opts, kw, sio)
+    else:
+        for k in ("trial_window", "trial_correction", "trial_threshold"):
+            if opts.get(k) is not None:
+                raise SyncstatsInputError(f"--{k.replace('_', '-')} needs --stimuli FILE (the stimulus times to cut "
+                                          "trials around).")
     n_sur = kw.get("n_surrogates", _default("n_surrogates"))
     results = []
     for rec in recs:
         tick, close = _progress(n_sur, args.quiet)
         try:
-            results.append(analyze(rec, fs=rec.fs, recording=rec.name, progress=tick, **kw))
+            results.append(analyze(rec.signals, fs=rec.fs, recording=rec.name, progress=tick, **kw)
+                           if isinstance(rec, _Trials) else analyze(rec, fs=rec.fs, recording=rec.name,
+                                                                    progress=tick, **kw))
         finally:
             close()
     res = results[0] if len(results) == 1 else combine_results(results)
     res = replace(
         res,
-        inputs=tuple([str(Path(args.input))] + [str(Path(p)) for p in events.values()] + ([args.config] if args.config else [])),
+        inputs=tuple([str(Path(args.input))] + [str(Path(p)) for p in events.values()]
+                     + ([str(Path(opts["stimuli"]))] if opts.get("stimuli") else [])
+                     + ([args.config] if args.config else [])),
         params={**res.params, "command": "analyze", "input": str(args.input)},
     )
     out = res.save(args.out, overwrite=args.overwrite)
     _summary(res, out, args.quiet, getattr(args, "json", False))
     return 0
+
+
+class _Trials:
+    """Trials cut from one recording around stimulus times (what --stimuli makes)."""
+
+    def __init__(self, name, signals, fs):
+        self.name, self.signals, self.fs = name, signals, fs
+
+
+def _trials_from_stimuli(rec, opts, kw, sio):
+    """--stimuli/--trial-window: the recording cut into trials, and stimulus_s for analyze."""
+    from .trial_locking import cut_trials
+
+    if rec.events:
+        raise SyncstatsInputError("--stimuli works on continuous signals only; leave out --events/--annotation "
+                                  "when cutting trials.")
+    if not opts.get("trial_window"):
+        raise SyncstatsInputError("--stimuli needs --trial-window=START,END (seconds relative to each stimulus, "
+                                  "e.g. --trial-window=-0.5,1.5).")
+    try:
+        window = [float(x) for x in str(opts["trial_window"]).split(",")]
+    except ValueError:
+        window = None
+    if window is None or len(window) != 2:
+        raise SyncstatsInputError(f"--trial-window '{opts['trial_window']}' must be two numbers START,END in "
+                                  "seconds, e.g. --trial-window=-0.5,1.5.")
+    stim = sio.read_events(opts["stimuli"]) - float(getattr(rec, "offset_s", 0.0) or 0.0)
+    try:
+        trials, stimulus_s, dropped = cut_trials(rec.signals, rec.fs, stim, window)
+    except SyncstatsInputError as err:
+        raise SyncstatsInputError(f"--stimuli {opts['stimuli']}: {err}") from None
+    if dropped:
+        from ._errors import SyncstatsWarning
+
+        warnings.warn(f"{dropped} stimuli of {opts['stimuli']} were left out: their trial window leaves the record",
+                      SyncstatsWarning, stacklevel=2)
+    return [_Trials(rec.name, trials, rec.fs)], {**kw, "stimulus_s": stimulus_s, "trial_locking": True}
 
 
 def _run_study(args):
@@ -459,6 +528,10 @@ def _run_study(args):
     if opts.get("gaps", "error") != "error":
         raise SyncstatsInputError("--gaps split does not apply to a study; give each gap-free piece its own "
                                   "manifest row.")
+    for k in ("stimuli", "trial_window", "clusters"):
+        if opts.get(k):
+            raise SyncstatsInputError(f"--{k.replace('_', '-')} does not apply to a study; run 'syncstats analyze' "
+                                      "on each recording for locking over trials or clusters.")
     kw = _analysis_kwargs(opts, args.quiet)
     executor, n_jobs = kw.pop("executor", None), kw.pop("n_jobs", None)
     if args.scheduler:
