@@ -505,7 +505,10 @@ def _trials_from_stimuli(rec, opts, kw, sio):
     if window is None or len(window) != 2:
         raise SyncstatsInputError(f"--trial-window '{opts['trial_window']}' must be two numbers START,END in "
                                   "seconds, e.g. --trial-window=-0.5,1.5.")
-    stim = sio.read_events(opts["stimuli"]) - float(getattr(rec, "offset_s", 0.0) or 0.0)
+    try:
+        stim = sio.read_events(opts["stimuli"]) - float(getattr(rec, "offset_s", 0.0) or 0.0)
+    except SyncstatsInputError as err:
+        raise SyncstatsInputError(f"--stimuli: {err}") from None
     try:
         trials, stimulus_s, dropped = cut_trials(rec.signals, rec.fs, stim, window)
     except SyncstatsInputError as err:
