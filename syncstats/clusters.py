@@ -244,6 +244,9 @@ def clusters_on(pipe, *, surrogate="iaaft", n_surrogates=999, alpha=0.05, seed=N
         p = (1.0 + np.sum(top[None, :] >= strength[:, None] - 1e-12, axis=1)) / (1.0 + n_surrogates)
         sig = (p < alpha) & (strength > 1.0)
         null_mean, null_upper = float(top.mean()), float(np.quantile(top, 1 - alpha))
+        if 1.0 / (1 + n_surrogates) >= alpha:
+            notes.append(f"clusters: {n_surrogates} surrogates cannot give p < {alpha:g} (the smallest p is "
+                         f"1/{n_surrogates + 1}); draw more surrogates")
         band = (curve_null.mean(axis=0), np.quantile(curve_null, alpha / 2, axis=0),
                 np.quantile(curve_null, 1 - alpha / 2, axis=0))
     else:

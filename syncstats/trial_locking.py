@@ -325,6 +325,9 @@ def trial_locking_on(pipe, pairs_ratios, *, stimulus_s=0.0, measures=TRIAL_MEASU
             size = min(size, int(batch_size))
         parts = map_batches(job, batch_bounds(n_surrogates, max(1, size)), executor=executor, n_jobs=n_jobs)
         null = np.concatenate([np.reshape(x, (-1,) + obs.shape) for x in parts], axis=0)  # (S, C, n)
+        if 1.0 / (1 + n_surrogates) >= alpha:
+            notes.append(f"locking over trials: {n_surrogates} surrogates cannot give p < {alpha:g} (the smallest "
+                         f"p is 1/{n_surrogates + 1}); draw at least {math.ceil(1 / alpha)} surrogates")
         distinct = math.floor(math.factorial(k) / math.e + 0.5) if k < 15 else float("inf")
         if distinct < n_surrogates + 1:
             notes.append(f"locking over trials: only {distinct} distinct trial re-pairings exist for {k} trials, "

@@ -101,3 +101,20 @@ def test_analyze_attaches_the_clusters_and_save_writes_them(tmp_path):
     assert len(pd.read_csv(out / "clusters.csv")) == 36
     assert "Synchronization clusters" in (out / "report.html").read_text()
     assert "varimax" in (out / "methods.md").read_text()
+
+
+def test_example_script_runs(tmp_path, monkeypatch):
+    import importlib.util
+    from pathlib import Path
+
+    monkeypatch.setenv("SYNCSTATS_EXAMPLE_SURROGATES", "39")  # 19 cannot reach p < 0.05
+    path = Path(__file__).resolve().parents[2] / "examples" / "clusters.py"
+    spec = importlib.util.spec_from_file_location("clusters_example", path)
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", SyncstatsWarning)
+        res = mod.main(str(tmp_path))
+    found = res.clusters.clusters
+    assert sorted(sorted(m) for m in found) == [["unit_1", "unit_2", "unit_3"], ["unit_4", "unit_5", "unit_6"]]
+    assert (tmp_path / "report" / "clusters.csv").is_file()

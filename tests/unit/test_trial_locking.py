@@ -135,3 +135,17 @@ def test_analyze_attaches_the_trial_result_and_save_writes_it(tmp_path):
     assert plain.trial_locking is None and plain.clusters is None
     out2 = plain.save(tmp_path / "plain")
     assert not (out2 / "trial_locking.csv").exists()
+
+
+def test_example_script_runs(tmp_path, monkeypatch):
+    import importlib.util
+    from pathlib import Path
+
+    monkeypatch.setenv("SYNCSTATS_EXAMPLE_SURROGATES", "39")  # 19 cannot reach p < 0.05
+    path = Path(__file__).resolve().parents[2] / "examples" / "trial_locking.py"
+    spec = importlib.util.spec_from_file_location("trial_locking_example", path)
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    res = mod.main(str(tmp_path))
+    st = res.trial_locking.stretches
+    assert st["significant"].any() and (tmp_path / "report" / "trial_stretches.csv").is_file()
