@@ -31,6 +31,13 @@ examples:
 
   # an EDF recording with R-peak annotations, 60 s windows, options from a file
   syncstats analyze sleep.edf --annotation R --windows 60 --config study.toml --out sleep-results
+
+  # trials cut around stimulus times: when after the stimulus do the two sites lock?
+  syncstats analyze sites.csv --stimuli tones.txt --trial-window=-0.5,1.5 --surrogate trial_shuffle \\
+      --seed 2 --out tone-locking
+
+  # synchronization clusters among many rhythms
+  syncstats analyze cells.csv --clusters --surrogate time_shift --seed 3 --out cell-clusters
 """
 
 EXAMPLES_SIMULATE = """\
