@@ -268,7 +268,8 @@ def _test_curve(obs, null, *, measure, n_trials, correction, alpha, threshold):
     if correction == "max_stat":
         maxz = np.sort(z[1:].max(axis=1))[::-1]
         p_adj = (1.0 + np.sum(maxz[:, None] >= z[0][None, :] - 1e-12, axis=0)) / (1.0 + s)
-        kmax = math.ceil(alpha * (1 + s) - 1) - 1  # most surrogate maxima a significant point may tie or exceed
+        # most surrogate maxima a significant point may tie or exceed, by the same comparison as p_adj < alpha
+        kmax = int(np.sum((1.0 + np.arange(s)) / (1.0 + s) < alpha)) - 1
         zc = maxz[kmax] if 0 <= kmax < s else np.inf
         out["threshold"] = mean + sd * zc
         sig = p_adj < alpha

@@ -149,3 +149,44 @@ def test_example_script_runs(tmp_path, monkeypatch):
     res = mod.main(str(tmp_path))
     st = res.trial_locking.stretches
     assert st["significant"].any() and (tmp_path / "report" / "trial_stretches.csv").is_file()
+
+
+@pytest.fixture
+def stim_files(tmp_path):
+    """A continuous record of 12 back-to-back 3 s trials (stimulus 1 s into each) and its stimulus list."""
+    sig = _trials(n=12)
+    a, b = sig["a"].ravel(), sig["b"].ravel()
+    pd.DataFrame({"time": np.arange(a.size) / FS, "a": a, "b": b}).to_csv(tmp_path / "rec.csv", index=False)
+    np.savetxt(tmp_path / "stim.txt", np.arange(12) * 3.0 + 1.0)
+    return tmp_path
+
+
+def test_command_line_cuts_trials_and_writes_the_tables(stim_files, capsys):
+    from syncstats.cli import main
+
+    out = stim_files / "out"
+    rc = main(["analyze", str(stim_files / "rec.csv"), "--stimuli", str(stim_files / "stim.txt"),
+               "--trial-window=-0.9,2.0", "--surrogate", "trial_shuffle", "--n-surrogates", "39", "--n-bootstrap", "0",
+               "--trial-correction", "max_stat", "--seed", "1", "--out", str(out), "--quiet"])
+    assert rc == 0
+    st = pd.read_csv(out / "trial_stretches.csv")
+    assert st["significant"].any() and set(st["correction"]) == {"max_stat"}
+    assert (pd.read_csv(out / "trial_locking.csv")["time_s"].min() < 0)
+
+
+@pytest.mark.parametrize("extra, words", [
+    ([], "--trial-window"),
+    (["--trial-window=2,1"], "END after START"),
+    (["--trial-window=-0.9,500"], "inside the record"),
+    (["--trial-window=-0.9,2", "--trial-correction", "bonferroni"], "--trial-correction"),
+])
+def test_command_line_errors_name_the_option(stim_files, capsys, extra, words):
+    from syncstats.cli import main
+
+    rc = main(["analyze", str(stim_files / "rec.csv"), "--stimuli", str(stim_files / "stim.txt"), *extra,
+               "--n-surrogates", "9", "--n-bootstrap", "0", "--out", str(stim_files / "bad")])
+    err = capsys.readouterr().err
+    assert rc == 2 and words in err and "Traceback" not in err
+    assert not (stim_files / "bad").exists()
+    rc = main(["analyze", str(stim_files / "rec.csv"), "--trial-window=-1,2", "--out", str(stim_files / "bad2")])
+    assert rc == 2 and "--stimuli" in capsys.readouterr().err
