@@ -8,7 +8,7 @@ from __future__ import annotations
 import matplotlib
 import numpy as np
 
-from ._common import fmt_num
+from ._common import fmt_num, surrogate_name
 from ._figures import _RC, _SEQ_CMAP, PALETTE, _new_figure, plain, to_data_uri
 
 __all__ = ["csv_frames", "section_html", "methods_sentences"]
@@ -107,7 +107,7 @@ def section_html(result, esc) -> str:
         head = (f"<p>{len(found)} synchronization cluster{'s' if len(found) != 1 else ''} found: "
                 + ("; ".join(", ".join(esc(x) for x in m) for m in found) if found else "none")
                 + f". A cluster's strength is compared with the largest eigenvalue of {n_sur} "
-                f"{esc(p.get('surrogate', ''))} surrogate matrices.</p>")
+                f"{esc(surrogate_name(p.get('surrogate', '')))} surrogate matrices.</p>")
     else:
         head = "<p>No surrogates were drawn: the decomposition is descriptive only.</p>"
     rows = []
@@ -121,7 +121,8 @@ def section_html(result, esc) -> str:
                     f"<td>{fmt_num(c['mean_plv_within'])}</td><td>{fmt_num(c['null_upper'])}</td>"
                     f"<td>{fmt_num(c['p_value'], 3)}</td><td>{'yes' if sig else ('—' if not n_sur else 'no')}</td></tr>")
     table = ('<table><thead><tr><th>component</th><th class="t">rhythms (most involved first)</th>'
-             "<th>eigenvalue</th><th>strength</th><th>mean PLV within</th><th>surrogate level</th><th>p</th>"
+             "<th>eigenvalue</th><th>strength</th><th>mean PLV within</th><th>surrogates' largest, "
+             f"{100 * (1 - float(p.get('alpha', 0.05))):g} % level</th><th>p</th>"
              f"<th>cluster?</th></tr></thead><tbody>{''.join(rows)}</tbody></table>")
     return (f'<div class="card">{head}<figure><img src="{_figure(cl)}" alt="Synchronization clusters">'
             "<figcaption>Left: the pair matrix with rhythms grouped by cluster (outlined). Right: each rhythm's "
