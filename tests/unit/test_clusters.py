@@ -58,12 +58,17 @@ def test_independent_rhythms_form_no_cluster_here():
     assert not res.participation["assigned"].any()
 
 
-def test_results_do_not_depend_on_the_batch_size():
+def test_results_do_not_depend_on_the_batch_size_and_inputs_stay_unchanged():
     sig = two_clusters(duration=60.0)
+    before = {k: v.copy() for k, v in sig.items()}
+    for v in sig.values():
+        v.flags.writeable = False
     a = group_clusters(sig, fs=20, surrogate="iaaft", n_surrogates=11, rng=3, batch_size=4)
     b = group_clusters(sig, fs=20, surrogate="iaaft", n_surrogates=11, rng=3, batch_size=11)
     pd.testing.assert_frame_equal(a.components, b.components)
     pd.testing.assert_frame_equal(a.order, b.order)
+    for k in sig:
+        np.testing.assert_array_equal(sig[k], before[k])
 
 
 def test_plv_matrix_and_rotation_properties():
