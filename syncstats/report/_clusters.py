@@ -106,7 +106,7 @@ def section_html(result, esc) -> str:
     if n_sur:
         head = (f"<p>{len(found)} synchronization cluster{'s' if len(found) != 1 else ''} found: "
                 + ("; ".join(", ".join(esc(x) for x in m) for m in found) if found else "none")
-                + f". A cluster's strength is compared with the largest eigenvalue of {n_sur} "
+                + f". A cluster's strength is compared with the largest cluster strength of {n_sur} "
                 f"{esc(surrogate_name(p.get('surrogate', '')))} surrogate matrices.</p>")
     else:
         head = "<p>No surrogates were drawn: the decomposition is descriptive only.</p>"
@@ -145,9 +145,10 @@ def methods_sentences(result, cite) -> list:
            "varimax-rotated" + cite([CITATIONS[2]]) + " and each rhythm's participation index in each cluster is "
            "its squared rotated loading."]
     if int(p.get("n_surrogates") or 0):
-        out.append(f"A cluster's strength was compared with the largest eigenvalue of each of {int(p['n_surrogates'])} "
-                   f"{p['surrogate']} surrogate matrices (a max-statistic over components, in the spirit of comparing "
-                   "eigenvalues with their distribution under independence" + cite([CITATIONS[1]]) + f"), at level {float(p['alpha']):g}; the order parameter "
-                   "of the whole group is shown over time with the surrogates' pointwise "
-                   f"{100 * (1 - float(p['alpha'])):g} % band.")
+        out.append(f"A cluster's strength (the sum of its squared rotated loadings) was compared with the largest "
+                   f"strength of each of {int(p['n_surrogates'])} {p['surrogate']} surrogate matrices, decomposed "
+                   "and rotated the same way (a max-statistic over components, in the spirit of comparing "
+                   "eigenvalues with their distribution under independence" + cite([CITATIONS[1]])
+                   + f"), at level {float(p['alpha']):g}; the order parameter of the whole group is shown over time "
+                   f"with the surrogates' pointwise {100 * (1 - float(p['alpha'])):g} % band.")
     return out
