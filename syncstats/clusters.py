@@ -58,6 +58,8 @@ CITATIONS = (
 )
 #: spawn-key tag of the cluster null's seed (apart from the main null's streams)
 SEED_TAG = 7102
+#: phase-randomising nulls: the cluster test was not calibrated with them (see the notes)
+_FOURIER_FAMILY = ("fourier", "aaft", "iaaft", "multivariate_fourier")
 #: at most this many points of the order-parameter curve
 MAX_POINTS = 1000
 
@@ -275,6 +277,10 @@ def clusters_on(pipe, *, surrogate="iaaft", n_surrogates=999, alpha=0.05, seed=N
         p = (1.0 + np.sum(top[None, :] >= strength[:, None] - 1e-12, axis=1)) / (1.0 + n_surrogates)
         sig = (p < alpha) & (strength > 1.0)
         null_mean, null_upper = float(top.mean()), float(np.quantile(top, 1 - alpha))
+        if surrogate in _FOURIER_FAMILY:
+            notes.append(f"clusters: with {surrogate} surrogates the cluster test exceeded its level on simulated "
+                         "phase oscillators (false-positive rate 0.15 at alpha 0.05, 60 runs); prefer time_shift "
+                         "(or trial_shuffle for trials) for the cluster test")
         if 1.0 / (1 + n_surrogates) >= alpha:
             notes.append(f"clusters: {n_surrogates} surrogates cannot give p < {alpha:g} (the smallest p is "
                          f"1/{n_surrogates + 1}); draw more surrogates")
