@@ -76,6 +76,11 @@ def analyze(
     group_label="group",
     progress=None,
     epochs=None,
+    trial_locking=False,
+    stimulus_s=0.0,
+    trial_correction="cluster",
+    trial_threshold=0.05,
+    clusters=False,
 ) -> AnalysisResult:
     """Test whether recorded rhythms are phase-locked, against surrogate data.
 
@@ -166,6 +171,21 @@ def analyze(
         (:func:`syncstats.locking_epochs`); True uses the defaults, a mapping sets
         ``tolerance``, ``window_cycles``, ``min_cycles``, ``min_s``. The result's
         ``.epochs`` holds them; ``save`` writes epochs.csv and epochs_summary.csv.
+    trial_locking : bool, default False
+        Also follow the across-trial PLV and PPC over time relative to a stimulus (signals
+        of shape trials x samples) against trial-shuffled surrogates, corrected over time
+        points (:func:`syncstats.trial_locking.locking_over_trials`); result in
+        ``.trial_locking``, saved as trial_locking.csv and trial_stretches.csv.
+    stimulus_s : float, default 0
+        Seconds from the start of each trial to its stimulus (``trial_locking``).
+    trial_correction : "cluster" (default) or "max_stat"
+        Correction over time points of each curve (``trial_locking``).
+    trial_threshold : float, default 0.05
+        Cluster-forming level: pointwise (1 − level) quantile of the pooled curves.
+    clusters : bool, default False
+        Also run the synchronization cluster analysis of the whole group (at least three
+        rhythms; :func:`syncstats.clusters.group_clusters`) with the run's surrogate; result
+        in ``.clusters``, saved as clusters.csv, cluster_components.csv and order_parameter.csv.
 
     Returns
     -------
@@ -202,6 +222,10 @@ def analyze(
         level = inf.check_method(opt.surrogate, inputs, design.pairs)
         options, notes, plan = inf.method_options(opt.surrogate, pipe, design, opt.n_surrogates, opt.min_shift_s,
                                                   all_shifts=all_shifts)
+    extras = _extras(pipe, design, opt, options, executor, inputs.recording, trial_locking=trial_locking,
+                     stimulus_s=stimulus_s, trial_correction=trial_correction, trial_threshold=trial_threshold,
+                     clusters=clusters)
+    if opt.n_surrogates:
         method_warn = _method_warnings(opt.surrogate, pipe, options)
         if plan is not None and plan.exact:
             null = inf.exact_shift_null(plan, design, pipe.span_n)
@@ -236,7 +260,8 @@ def analyze(
         table=table,
         diagnostics=diag_frame,
         params=_params(opt, inputs, pipe, design, options, level, ratios, started, plan)
-        | ({} if eopt is None else {"epochs": eopt.as_params()}),
+        | ({} if eopt is None else {"epochs": eopt.as_params()})
+        | {k: v.params for k, v in extras.items()},
         null_distribution=None if null is None else np.ascontiguousarray(null.T),
         phase_differences=design.psi_samples(pipe.data),
         phases={n: pipe.data[n][0] for n in inputs.names},
@@ -246,7 +271,29 @@ def analyze(
         inputs=tuple(inputs.sources),
         epochs=found,
         rhythm_views=rhythm_views(pipe, diag_frame),
+        **extras,
     )
+
+
+def _extras(pipe, design, opt, options, executor, recording, *, trial_locking, stimulus_s, trial_correction,
+            trial_threshold, clusters):
+    """The optional analyses on the same pipeline: locking over trials, group clusters."""
+    from ._checks import check_bool
+
+    out = {}
+    run = dict(n_surrogates=opt.n_surrogates, alpha=opt.alpha, seed=opt.seed, batch_size=opt.batch_size,
+               memory_mb=opt.memory_mb, executor=executor, n_jobs=opt.n_jobs, recording=recording)
+    if check_bool(trial_locking, "trial_locking"):
+        from .trial_locking import trial_locking_on
+
+        out["trial_locking"] = trial_locking_on(pipe, design.ratios, stimulus_s=stimulus_s,
+                                                correction=trial_correction, threshold=trial_threshold, **run)
+    if check_bool(clusters, "clusters"):
+        from .clusters import clusters_on
+
+        out["clusters"] = clusters_on(pipe, surrogate=opt.surrogate, options=options, stride=design.slowest_stride,
+                                      **run)
+    return out
 
 
 def _now():

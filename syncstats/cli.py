@@ -31,6 +31,13 @@ examples:
 
   # an EDF recording with R-peak annotations, 60 s windows, options from a file
   syncstats analyze sleep.edf --annotation R --windows 60 --config study.toml --out sleep-results
+
+  # trials cut around stimulus times: when after the stimulus do the two sites lock?
+  syncstats analyze sites.csv --stimuli tones.txt --trial-window=-0.5,1.5 --surrogate trial_shuffle \\
+      --seed 2 --out tone-locking
+
+  # synchronization clusters among many rhythms
+  syncstats analyze cells.csv --clusters --surrogate time_shift --seed 3 --out cell-clusters
 """
 
 EXAMPLES_SIMULATE = """\
@@ -132,6 +139,11 @@ CONFIG_KEYS = {
     "epoch_window": _whole(2),
     "epoch_min_cycles": _num(0),
     "epoch_min_s": _num(0),
+    "stimuli": _str,
+    "trial_window": _str,
+    "trial_correction": _str,
+    "trial_threshold": _num(0, 1, True, True),
+    "clusters": _flag,
 }
 
 
@@ -210,6 +222,18 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
     opt("--epoch-min-cycles", f"shortest epoch, cycles of the slower rhythm (default {ed['min_cycles']:g}); "
         "implies --epochs", dest="epoch_min_cycles")
     opt("--epoch-min-s", f"shortest epoch, seconds (default {ed['min_s']:g}); implies --epochs", dest="epoch_min_s")
+    opt("--stimuli", "stimulus times (s, one per line, same clock as the recording): cut trials around them and "
+        "follow the across-trial PLV and PPC over time from the stimulus (needs --trial-window; writes "
+        "trial_locking.csv and trial_stretches.csv)", metavar="FILE")
+    opt("--trial-window", "with --stimuli: each trial's span in seconds relative to its stimulus, e.g. "
+        "--trial-window=-0.5,1.5 (write '=' when START is negative)",
+        dest="trial_window", metavar="START,END")
+    opt("--trial-correction", f"with --stimuli: correction over time points, cluster or max_stat (default: "
+        f"{_default('trial_correction')})", dest="trial_correction")
+    opt("--trial-threshold", f"with --stimuli and cluster correction: pointwise level that forms stretches (default "
+        f"{_default('trial_threshold')})", dest="trial_threshold")
+    opt("--clusters", "also find synchronization clusters among three or more rhythms, with the same surrogates "
+        "(writes clusters.csv, cluster_components.csv and order_parameter.csv)", action="store_const", const=True)
     opt("--config", "TOML file with any of these options (command-line options win)")
     opt("--out", "output folder (must not exist or be empty)", required=True)
     opt("--overwrite", "replace an existing output folder", action="store_true")
@@ -412,7 +436,8 @@ def _analysis_kwargs(opts, quiet):
     """``analyze`` keywords from the options; what is not given keeps analyze's default."""
     kw = {k: opts[k] for k in ("surrogate", "n_surrogates", "correction", "alpha", "bands", "phase_method",
                                 "protophase_correction", "windows", "window_step", "edge_s", "min_shift_s",
-                                "ci_level", "ci_method", "n_bootstrap", "batch_size") if k in opts}
+                                "ci_level", "ci_method", "n_bootstrap", "batch_size", "trial_correction",
+                                "trial_threshold", "clusters") if k in opts}
     if "seed" in opts:
         kw["rng"] = opts["seed"]
     if opts.get("pairs"):
@@ -458,10 +483,20 @@ def _run_analyze(args):
         allow_truncated=bool(opts.get("allow_truncated", False)),
     )
     if opts.get("gaps", "error") == "split":
+        if opts.get("stimuli"):
+            raise SyncstatsInputError("--stimuli cannot be combined with --gaps split; cut the record into "
+                                      "gap-free files first.")
         recs = sio.read_segments(args.input, gaps="split", **read_kw)
     else:
         recs = [sio.read_recording(args.input, **read_kw)]
     kw = _analysis_kwargs(opts, args.quiet)
+    if opts.get("stimuli"):
+        recs, kw = _trials_from_stimuli(recs[0], opts, kw, sio)
+    else:
+        for k in ("trial_window", "trial_correction", "trial_threshold"):
+            if opts.get(k) is not None:
+                raise SyncstatsInputError(f"--{k.replace('_', '-')} needs --stimuli FILE (the stimulus times to cut "
+                                          "trials around).")
     n_sur = kw.get("n_surrogates", _default("n_surrogates"))
     nulls = _surrogate_list(kw)
     run = analyze
@@ -474,13 +509,16 @@ def _run_analyze(args):
     for rec in recs:
         tick, close = _progress(n_sur * len(nulls), args.quiet)
         try:
-            results.append(run(rec, fs=rec.fs, recording=rec.name, progress=tick, **kw))
+            data = rec.signals if isinstance(rec, _Trials) else rec
+            results.append(run(data, fs=rec.fs, recording=rec.name, progress=tick, **kw))
         finally:
             close()
     res = results[0] if len(results) == 1 else combine_results(results)
     res = replace(
         res,
-        inputs=tuple([str(Path(args.input))] + [str(Path(p)) for p in events.values()] + ([args.config] if args.config else [])),
+        inputs=tuple([str(Path(args.input))] + [str(Path(p)) for p in events.values()]
+                     + ([str(Path(opts["stimuli"]))] if opts.get("stimuli") else [])
+                     + ([args.config] if args.config else [])),
         params={**res.params, "command": "analyze", "input": str(args.input)},
     )
     out = res.save(args.out, overwrite=args.overwrite)
@@ -495,6 +533,44 @@ def _surrogate_list(kw) -> tuple:
     from .compare import parse_surrogates
 
     return parse_surrogates(kw["surrogate"], "--surrogate")
+class _Trials:
+    """Trials cut from one recording around stimulus times (what --stimuli makes)."""
+
+    def __init__(self, name, signals, fs):
+        self.name, self.signals, self.fs = name, signals, fs
+
+
+def _trials_from_stimuli(rec, opts, kw, sio):
+    """--stimuli/--trial-window: the recording cut into trials, and stimulus_s for analyze."""
+    from .trial_locking import cut_trials
+
+    if rec.events:
+        raise SyncstatsInputError("--stimuli works on continuous signals only; leave out --events/--annotation "
+                                  "when cutting trials.")
+    if not opts.get("trial_window"):
+        raise SyncstatsInputError("--stimuli needs --trial-window=START,END (seconds relative to each stimulus, "
+                                  "e.g. --trial-window=-0.5,1.5).")
+    try:
+        window = [float(x) for x in str(opts["trial_window"]).split(",")]
+    except ValueError:
+        window = None
+    if window is None or len(window) != 2:
+        raise SyncstatsInputError(f"--trial-window '{opts['trial_window']}' must be two numbers START,END in "
+                                  "seconds, e.g. --trial-window=-0.5,1.5.")
+    try:
+        stim = sio.read_events(opts["stimuli"]) - float(getattr(rec, "offset_s", 0.0) or 0.0)
+    except SyncstatsInputError as err:
+        raise SyncstatsInputError(f"--stimuli: {err}") from None
+    try:
+        trials, stimulus_s, dropped = cut_trials(rec.signals, rec.fs, stim, window)
+    except SyncstatsInputError as err:
+        raise SyncstatsInputError(f"--stimuli {opts['stimuli']}: {err}") from None
+    if dropped:
+        from ._errors import SyncstatsWarning
+
+        warnings.warn(f"{dropped} stimuli of {opts['stimuli']} were left out: their trial window leaves the record",
+                      SyncstatsWarning, stacklevel=2)
+    return [_Trials(rec.name, trials, rec.fs)], {**kw, "stimulus_s": stimulus_s, "trial_locking": True}
 
 
 def _run_study(args):
@@ -510,6 +586,10 @@ def _run_study(args):
     if opts.get("gaps", "error") != "error":
         raise SyncstatsInputError("--gaps split does not apply to a study; give each gap-free piece its own "
                                   "manifest row.")
+    for k in ("stimuli", "trial_window", "clusters"):
+        if opts.get(k):
+            raise SyncstatsInputError(f"--{k.replace('_', '-')} does not apply to a study; run 'syncstats analyze' "
+                                      "on each recording for locking over trials or clusters.")
     kw = _analysis_kwargs(opts, args.quiet)
     executor, n_jobs = kw.pop("executor", None), kw.pop("n_jobs", None)
     if args.scheduler:

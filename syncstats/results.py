@@ -202,6 +202,10 @@ class ResultData:
     null_comparison : pandas.DataFrame or None
         When several nulls were run on the same data (``syncstats.compare_nulls``): one
         row per table row x null with its p-values and which null to believe.
+    trial_locking : syncstats.trial_locking.TrialLocking or None
+        Locking over trials relative to a stimulus (``analyze(trial_locking=True)``).
+    clusters : syncstats.clusters.GroupClusters or None
+        Synchronization clusters of the group (``analyze(clusters=True)``).
     """
 
     table: pd.DataFrame
@@ -217,3 +221,5 @@ class ResultData:
     epochs: Any = None
     rhythm_views: dict = field(default_factory=dict)
     null_comparison: pd.DataFrame | None = None
+    trial_locking: Any = None
+    clusters: Any = None

@@ -596,6 +596,10 @@ def render_html(result, *, max_figure_pairs: int = MAX_FIGURE_PAIRS, provenance:
     add("pairs", "Pair by pair", _pair_cards(result, summaries, max_figure_pairs) if summaries else "")
     add("group", "All pairs at once", _group_block(result) if len(names) >= 3 else "")
     add("epochs", "Stretches of locking", epochs_section(result, esc))
+    from . import _clusters, _trials
+
+    add("trials", "Locking over trials", _trials.section_html(result, esc))
+    add("clusters", "Synchronization clusters", _clusters.section_html(result, esc))
     add("numbers", "The numbers", _results_table(table, summaries))
     add("checks", "Signal checks", _diagnostics(result))
     add("method", "How it was done", _notes_block(result) + _method_block(result, prov))

@@ -341,6 +341,10 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
         para.append(f"All random draws came from one seeded generator (seed entropy {seed}), so "
                     "the analysis can be repeated exactly.")
 
+    from . import _clusters, _trials
+
+    para += _trials.methods_sentences(result, cite) + _clusters.methods_sentences(result, cite)
+
     if result.events:
         para.append("Synchrograms (the phase of the slower rhythm at each event of the faster "
                     "one) are shown for event data" + cite(["schafer1998", "schafer1999"]) + ".")

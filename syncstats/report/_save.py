@@ -66,10 +66,20 @@ def save_result(result: ResultData, out_dir, *, overwrite: bool = False, record_
             _table.write_results_csv(result, folder / "results.csv"),
             _html.write_report_html(result, folder / "report.html", provenance=prov),
             _methods.write_methods_md(result, folder / "methods.md"),
-        ] + _epochs.write_epoch_files(result, folder)
+        ] + _epochs.write_epoch_files(result, folder) + _extra_csvs(result, folder)
         written += [f for f in [_compare.write_null_comparison_csv(result, folder / "null_comparison.csv")] if f]
         _provenance.write_provenance_json(result, folder / "provenance.json",
                                           output_files=written, record=prov)
 
     return write_folder_atomically(out_dir, build, overwrite=overwrite,
                                    protected=list(result.inputs or []))
+
+
+def _extra_csvs(result, folder: Path) -> list:
+    """Tidy CSVs of the optional analyses (locking over trials, clusters), same writer as results.csv."""
+    from types import SimpleNamespace
+
+    from . import _clusters, _trials
+
+    frames = {**_trials.csv_frames(result), **_clusters.csv_frames(result)}
+    return [_table.write_results_csv(SimpleNamespace(table=df), folder / name) for name, df in frames.items()]

@@ -18,6 +18,8 @@ Simulators (each returns a :class:`Simulation`; time on the last axis)
 * :func:`rossler` -- phase-coherent chaos (a = b = 0.2, c = 5.7).
 * :func:`damped_noise_oscillator` -- noise-driven damped linear oscillators: a null
   that is rhythmic but not self-sustained.
+* :func:`stimulus_locked_trials` -- repeated trials of two rhythms that lock only in a
+  stretch after a stimulus (event-related locking over trials).
 
 Ground truth, scenarios and demo data
 -------------------------------------
@@ -52,6 +54,7 @@ from ._demo import DemoRecording, load_demo, make_demo_dataset, write_demo
 from ._linear import damped_noise_oscillator
 from ._phase_models import phase_oscillators, quasi_periodic, stuart_landau
 from ._scenario import SCENARIO_KINDS, Scenario, ScenarioBatch, scenario, scenario_batch
+from ._trials import stimulus_locked_trials
 from ._truth import adler_prediction, phase_slips
 from ._waveform_models import fitzhugh_nagumo, natural_period, rossler, van_der_pol
 
@@ -65,6 +68,7 @@ __all__ = [
     "quasi_periodic",
     "rossler",
     "damped_noise_oscillator",
+    "stimulus_locked_trials",
     "natural_period",
     "adler_prediction",
     "phase_slips",
