@@ -242,7 +242,8 @@ def analyze(
     intervals = inf.row_intervals(design.family, pipe.data, opt.seed, n_resamples=opt.n_bootstrap,
                                   level=opt.ci_level, method=opt.ci_method)
     diags = pipe.diagnostics()
-    found = None if eopt is None else run_epochs(pipe, design, eopt, opt, inputs, executor=executor)
+    if eopt is not None:
+        extras["epochs"] = run_epochs(pipe, design, eopt, opt, inputs, executor=executor)
     table = build_table(
         design, recording=inputs.recording, time_s=pipe.time_s, fs=pipe.inputs.fs, observed=observed, test=test,
         ratios=chosen, intervals=intervals, preferred_phase=pref, n_cycles=ncyc,
@@ -260,16 +261,15 @@ def analyze(
         table=table,
         diagnostics=diag_frame,
         params=_params(opt, inputs, pipe, design, options, level, ratios, started, plan)
-        | ({} if eopt is None else {"epochs": eopt.as_params()})
         | {k: v.params for k, v in extras.items()},
         null_distribution=None if null is None else np.ascontiguousarray(null.T),
         phase_differences=design.psi_samples(pipe.data),
         phases={n: pipe.data[n][0] for n in inputs.names},
         time_s=pipe.time_s.copy(),
         events={n: e.copy() for n, e in inputs.events.items()},
-        notes=tuple(lead + list(pipe.notes) + notes + list(test.notes) + (list(found.notes) if found else [])),
+        notes=tuple(lead + list(pipe.notes) + notes + list(test.notes)
+                    + (list(extras["epochs"].notes) if "epochs" in extras else [])),
         inputs=tuple(inputs.sources),
-        epochs=found,
         rhythm_views=rhythm_views(pipe, diag_frame),
         **extras,
     )

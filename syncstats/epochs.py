@@ -315,6 +315,11 @@ class EpochResult:
     options: EpochOptions = field(default_factory=EpochOptions)
     notes: tuple = ()
 
+    @property
+    def params(self) -> dict:
+        """The options as recorded in the run's params (JSON-serialisable)."""
+        return self.options.as_params()
+
 
 def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_surrogates: int, correction: str,
                          alpha: float, seed: np.random.SeedSequence, recording: str = "", options=None,
