@@ -238,7 +238,7 @@ def analyze(
     pref, ncyc = design.row_summaries(pipe.data)
     test = inf.test_family(observed, null, design, opt.correction, opt.alpha, n_cycles=ncyc)
     chosen = inf.choose_ratios(design, pipe.data, observed, test, alpha=opt.alpha,
-                               n_resamples=opt.n_bootstrap or 199, seed=opt.seed)
+                               n_resamples=opt.n_bootstrap or 199, seed=opt.seed, n_cycles=ncyc)
     intervals = inf.row_intervals(design.family, pipe.data, opt.seed, n_resamples=opt.n_bootstrap,
                                   level=opt.ci_level, method=opt.ci_method)
     diags = pipe.diagnostics()
@@ -479,5 +479,7 @@ def _correct_across(table, null, params):
     t["significant"] = sig.where(tested, pd.NA).astype("boolean")
     best = t.groupby(["recording", "signal_a", "signal_b", "window_start_s", "measure"], sort=False)["effect"]
     selected = t["effect"].eq(best.transform("max")) | best.transform("size").eq(1)
-    t["locked"] = (selected & sig).where(tested, pd.NA).astype("boolean")
+    strong = pd.Series([v > inf.lock_floor(m, n, alpha) for v, m, n in zip(t["value"], t["measure"], t["n_cycles"])],
+                       index=t.index)
+    t["locked"] = (selected & sig & strong).where(tested, pd.NA).astype("boolean")
     return t, f"the correction ({corr}) spans all {n_rec} recordings"

@@ -24,6 +24,7 @@ import pandas as pd
 
 from . import _checks
 from ._errors import SyncstatsInputError
+from .inference._circular import critical_plv
 
 __all__ = [
     "CLAIMED_TESTS",
@@ -93,28 +94,6 @@ def rayleigh_log_p(n, plv):
     root = np.sqrt(1.0 + 4.0 * n + 4.0 * (n * n - rn * rn))
     out = -4.0 * rn * rn / (root + 1.0 + 2.0 * n)
     return out if out.ndim else float(out)
-
-
-def critical_plv(n, level):
-    """Smallest PLV whose Rayleigh p-value (Zar's approximation) is at most ``level``.
-
-    Inverts Zar's formula in closed form: with ``L = ln(level)``,
-    ``R_n² = −L (4n + 2 + L) / 4`` and ``gamma = R_n / n``. Returns ``inf`` when even
-    gamma = 1 cannot reach ``level`` with ``n`` angles.
-
-    Examples
-    --------
-    >>> g = critical_plv(100, 0.05)
-    >>> round(g, 4), round(float(np.exp(rayleigh_log_p(100, g))), 6)
-    (0.1729, 0.05)
-    """
-    n = float(n)
-    L = math.log(level)
-    r2 = -L * (4.0 * n + 2.0 + L) / 4.0
-    if L < -(1.0 + 2.0 * n) or r2 < 0:
-        return math.inf
-    g = math.sqrt(r2) / n
-    return g if g <= 1.0 else math.inf
 
 
 def chance_plv(n):

@@ -6,17 +6,19 @@ Stages (each a function returning a small frozen object): :func:`make_design` ->
 :func:`row_intervals`.
 """
 from ._bootstrap import CI_METHODS, Interval, RowIntervals, angle_ci, block_ci, row_intervals
-from ._circular import rayleigh_test
+from ._circular import critical_plv, rayleigh_test
 from ._design import MIN_CYCLES, Design, make_design
 from ._family import Family, Row
 from ._nulls import (NullJob, ShiftPlan, check_method, exact_shift_null, method_options,
                      null_distribution, shift_plan)
 from ._pvalues import (CORRECTION_METHODS, CORRECTIONS, Correction, adjust, max_stat_adjust, min_surrogates,
                        surrogate_pvalue)
-from ._ratios import RatioChoice, choose_ratios
+from ._ratios import RatioChoice, choose_ratios, lock_floor
 from ._testing import FamilyTest, test_family
 
 __all__ = [
+    "critical_plv",
+    "lock_floor",
     "CI_METHODS",
     "CORRECTIONS",
     "CORRECTION_METHODS",

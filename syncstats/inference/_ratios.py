@@ -22,7 +22,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["RatioChoice", "choose_ratios"]
+from ._circular import critical_plv
+
+__all__ = ["RatioChoice", "choose_ratios", "lock_floor"]
 
 _CHUNK = 100  # resamples per chunk (memory: chunk x blocks x statistics)
 
@@ -37,7 +39,20 @@ class RatioChoice:
     selected: np.ndarray  # bool: the row is its group's selected ratio
 
 
-def choose_ratios(design, data, observed, test, *, alpha, n_resamples, seed) -> RatioChoice:
+def lock_floor(measure: str, n_cycles: float, alpha: float) -> float:
+    """The smallest value of ``measure`` that independent angles exceed by chance with
+    probability at most ``alpha`` over ``n_cycles`` cycles (-inf where no floor is defined)."""
+    if not n_cycles or n_cycles < 2:
+        return float("inf") if measure in ("plv", "ppc") else float("-inf")
+    if measure == "plv":
+        return critical_plv(n_cycles, alpha)
+    if measure == "ppc":
+        g = critical_plv(n_cycles, alpha)
+        return (n_cycles * g * g - 1.0) / (n_cycles - 1.0) if np.isfinite(g) else float("inf")
+    return float("-inf")
+
+
+def choose_ratios(design, data, observed, test, *, alpha, n_resamples, seed, n_cycles=None) -> RatioChoice:
     rows = design.rows
     tested = not np.all(np.isnan(test.p_adjusted))
     debiased = observed - np.nan_to_num(test.null_mean, nan=0.0)
@@ -59,7 +74,10 @@ def choose_ratios(design, data, observed, test, *, alpha, n_resamples, seed) -> 
                        idx.index(best), n_resamples, rng)
         certainty[idx] = c
     sig = test.p_adjusted < alpha
-    locked = np.array([bool(selected[i] and sig[i]) if tested else None for i in range(len(rows))], dtype=object)
+    strong = np.ones(len(rows), bool) if n_cycles is None else np.array(
+        [observed[i] > lock_floor(r.measure, float(n_cycles[i]), alpha) for i, r in enumerate(rows)])
+    locked = np.array([bool(selected[i] and sig[i] and strong[i]) if tested else None for i in range(len(rows))],
+                      dtype=object)
     return RatioChoice(locked, certainty, selected)
 
 

@@ -72,3 +72,26 @@ def test_block_bootstrap_ci_covers_the_von_mises_plv():
     lo, hi = stats.binom.ppf([0.005, 0.995], reps, 0.9) / reps
     assert lo <= cover / reps <= hi, f"coverage {cover / reps:.3f} outside [{lo:.3f}, {hi:.3f}]"
     assert M.plv(psi) == pytest.approx(truth, abs=0.1)
+
+
+def test_locked_needs_more_than_chance_concentration_over_the_cycles():
+    """A significant row whose PLV independent cycle phases reach by chance (below the
+    Rayleigh critical value for its cycles, Zar 1999 Eq. 27.4 inverted) is dependent, not
+    locked; above it, it is locked. One ratio per pair, so no resampling is involved."""
+    from types import SimpleNamespace
+
+    from syncstats.inference import choose_ratios, critical_plv, lock_floor
+    from syncstats.inference._family import Row
+
+    rows = (Row("pair", "a", "b", 3, 1, 0, 100, "plv"), Row("pair", "c", "d", 3, 1, 0, 100, "plv"))
+    design = SimpleNamespace(rows=rows)
+    test = SimpleNamespace(p_adjusted=np.array([0.001, 0.001]), null_mean=np.array([0.015, 0.015]))
+    floor = critical_plv(75, 0.05)
+    assert lock_floor("plv", 75, 0.05) == floor and 0.19 < floor < 0.21  # sqrt(-ln 0.05 / 75) to first order
+    observed = np.array([0.083, floor + 0.05])
+    ch = choose_ratios(design, {}, observed, test, alpha=0.05, n_resamples=0, seed=np.random.SeedSequence(1),
+                       n_cycles=np.array([75.0, 75.0]))
+    assert list(ch.locked) == [False, True]
+    # PPC: the floor is the PPC of the critical PLV; other measures have none
+    assert lock_floor("ppc", 75, 0.05) == pytest.approx((75 * floor**2 - 1) / 74)
+    assert lock_floor("entropy_index", 75, 0.05) == -np.inf
