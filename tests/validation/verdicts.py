@@ -145,10 +145,12 @@ def coverage_rows(families, replicas: int, workers: int, duration: float = 200.0
 
 # ---- exact-null reference ---------------------------------------------------------------
 
-def _plv_chunk(args):
-    fam, coupled, coupling, noise, r0, r1, seed, duration = args
+def _reference_chunk(args):
+    """PLV values (``method`` None) or p-values of ``method`` with 39 surrogates for
+    replicas r0..r1 of one family, optionally at a given coupling and noise."""
+    fam, method, coupled, coupling, noise, r0, r1, seed, duration = args
     warnings.simplefilter("ignore")
-    kw = {} if coupling is None or not coupled else {"coupling": coupling}
+    kw = {"coupling": coupling} if coupled and coupling is not None else {}
     if noise is not None:
         kw["noise"] = noise
     b = scenario_batch(fam.kind, n_replicas=r1 - r0, coupled=coupled, ratio=fam.ratio, duration=duration, fs=FS,
@@ -156,25 +158,13 @@ def _plv_chunk(args):
     out = []
     for i in range(r1 - r0):
         signals, ev = _split(b.replica(i), fam.events)
-        out.append(float(syncstats.analyze(signals, fs=FS, events=ev, pairs=[_pair(b)], ratios=[fam.ratio],
-                                           n_surrogates=0, n_bootstrap=0).table.value.iloc[0]))
-    return out
-
-
-def _method_chunk(args):
-    fam, method, coupling, noise, r0, r1, seed, duration = args
-    warnings.simplefilter("ignore")
-    kw = {"coupling": coupling} if coupling is not None else {}
-    if noise is not None:
-        kw["noise"] = noise
-    b = scenario_batch(fam.kind, n_replicas=r1 - r0, coupled=True, ratio=fam.ratio, duration=duration, fs=FS,
-                       options=fam.options or None, rng=np.random.SeedSequence([seed, r0]), **kw)
-    out = []
-    for i in range(r1 - r0):
-        signals, ev = _split(b.replica(i), fam.events)
-        t = syncstats.analyze(signals, fs=FS, events=ev, pairs=[_pair(b)], ratios=[fam.ratio], surrogate=method,
-                              n_surrogates=39, n_bootstrap=0, correction="none", rng=seed * 1000 + r0 + i).table
-        out.append(float(t.p_value.iloc[0]))
+        common = dict(fs=FS, events=ev, pairs=[_pair(b)], ratios=[fam.ratio], n_bootstrap=0)
+        if method is None:
+            out.append(float(syncstats.analyze(signals, n_surrogates=0, **common).table.value.iloc[0]))
+        else:
+            t = syncstats.analyze(signals, surrogate=method, n_surrogates=39, correction="none",
+                                  rng=seed * 1000 + r0 + i, **common).table
+            out.append(float(t.p_value.iloc[0]))
     return out
 
 
@@ -184,10 +174,10 @@ def exact_reference_power(fam, *, replicas, pool, workers, seed, duration, coupl
     uncoupled replicas of the same model. ``coupled_seed`` reproduces the replicas the
     surrogate methods were run on."""
     cs = seed + 1 if coupled_seed is None else coupled_seed
-    null = sum(_map(_plv_chunk, [(fam, False, None, noise, a, min(a + 10, pool), seed, duration)
-                                 for a in range(0, pool, 10)], workers), [])
-    alt = sum(_map(_plv_chunk, [(fam, True, coupling, noise, a, min(a + 10, replicas), cs, duration)
-                                for a in range(0, replicas, 10)], workers), [])
+    null = sum(_map(_reference_chunk, [(fam, None, False, None, noise, a, min(a + 10, pool), seed, duration)
+                                       for a in range(0, pool, 10)], workers), [])
+    alt = sum(_map(_reference_chunk, [(fam, None, True, coupling, noise, a, min(a + 10, replicas), cs, duration)
+                                      for a in range(0, replicas, 10)], workers), [])
     crit = float(np.quantile(null, 1 - ALPHA))
     null, alt = np.asarray(null), np.asarray(alt)
     # the same exact null with as many surrogates as the Monte-Carlo methods draw (39):
@@ -226,8 +216,8 @@ def weak_reference_rows(fam, *, replicas, pool, workers, seed=61, duration=300.0
                                        duration=duration, coupling=k_weak, noise=noise)
     rows = []
     for m in ("time_shift", "iaaft"):
-        p = np.concatenate(_map(_method_chunk, [(fam, m, k_weak, noise, a, min(a + 10, replicas), seed + 1, duration)
-                                                for a in range(0, replicas, 10)], workers))
+        p = np.concatenate(_map(_reference_chunk, [(fam, m, True, k_weak, noise, a, min(a + 10, replicas), seed + 1,
+                                                    duration) for a in range(0, replicas, 10)], workers))
         pw = float(np.mean(p <= ALPHA))
         rows.append(dict(part="reference_weak", family=f"{fam.name}, weakly coupled (Adler nu 1.25)", method=m,
                          replicas=replicas, pool=pool, exact_power=ref, exact_power_s39=ref39, power=pw,
