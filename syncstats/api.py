@@ -261,6 +261,8 @@ def analyze(
         table=table,
         diagnostics=diag_frame,
         params=_params(opt, inputs, pipe, design, options, level, ratios, started, plan)
+        | {"psi_drift_per_cycle": [None if d is None or not np.isfinite(d) else float(d)
+                                   for d in (chosen.drift if chosen.drift is not None else [None] * len(design.rows))]}
         | {k: v.params for k, v in extras.items()},
         null_distribution=None if null is None else np.ascontiguousarray(null.T),
         phase_differences=design.psi_samples(pipe.data),
@@ -428,7 +430,8 @@ def combine_results(results, *, correct_across: bool = True) -> AnalysisResult:
     notes = list(dict.fromkeys(sum((list(r.notes) for r in results), [])))
     table = finalize_table(pd.concat(tables, ignore_index=True).to_dict("records"))
     if correct_across and len(results) > 1:
-        table, note = _correct_across(table, null, longest.params)
+        drift = sum((list(r.params.get("psi_drift_per_cycle") or [None] * len(r.table)) for r in results), [])
+        table, note = _correct_across(table, null, longest.params, drift=drift)
         if note:
             notes.append(note)
     notes.append(f"{len(results)} recordings analysed; figures show '{rec_long}', the longest")
@@ -451,8 +454,9 @@ def combine_results(results, *, correct_across: bool = True) -> AnalysisResult:
     )
 
 
-def _correct_across(table, null, params):
-    """Correct every measure's rows over all recordings together (see combine_results)."""
+def _correct_across(table, null, params, drift=None):
+    """Correct every measure's rows over all recordings together (see combine_results).
+    ``drift``: per row, the net turns of psi per cycle (None where not known)."""
     from .measures import MEASURE_METHODS
 
     tested = table["p_value"].notna()
@@ -479,7 +483,8 @@ def _correct_across(table, null, params):
     t["significant"] = sig.where(tested, pd.NA).astype("boolean")
     best = t.groupby(["recording", "signal_a", "signal_b", "window_start_s", "measure"], sort=False)["effect"]
     selected = t["effect"].eq(best.transform("max")) | best.transform("size").eq(1)
-    strong = pd.Series([v > inf.lock_floor(m, n, alpha) for v, m, n in zip(t["value"], t["measure"], t["n_cycles"])],
-                       index=t.index)
+    drift = drift if drift is not None and len(drift) == len(t) else [None] * len(t)
+    strong = pd.Series([v > inf.lock_floor(m, n, alpha) and not (d is not None and d > inf.MAX_DRIFT_PER_CYCLE)
+                        for v, m, n, d in zip(t["value"], t["measure"], t["n_cycles"], drift)], index=t.index)
     t["locked"] = (selected & sig & strong).where(tested, pd.NA).astype("boolean")
     return t, f"the correction ({corr}) spans all {n_rec} recordings"

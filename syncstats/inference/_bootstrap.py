@@ -174,10 +174,16 @@ def phase_model_interval(psi: np.ndarray, stride: int, *, n_resamples: int, leve
     ``n_resamples`` records of the same length from the fitted half-cycle map itself
     (Euler–Maruyama at the fitting step; psi sampled twice per cycle) from the observed
     starting phase; and returns the basic parametric bootstrap interval
-    (Efron & Tibshirani 1993, ch. 6 and 13) of the model's long-run PLV theta:
-    [g − q_hi, g − q_lo] with q the quantiles of (PLV* − theta), theta = |mean e^{i psi}|
-    over all simulated samples. The fitted model has slips at the rate its barrier and
-    noise imply, whether or not this record happened to show one.
+    (Efron & Tibshirani 1993, ch. 6 and 13) of the model's long-run PLV theta on the scale
+    u = log(1 − R): [u(g) − q_hi, u(g) − q_lo] mapped back, with q the quantiles of
+    u(PLV*) − u(theta), theta = |mean e^{i psi}| over all simulated samples. On that scale
+    the spread of a concentrated PLV does not shrink with the record's own concentration
+    (1 − R is about half the circular variance, whose sampling spread is proportional to
+    itself); on the raw scale a record that happened to be tight got a narrow interval
+    that missed the long-record value from above (heart beats against breathing at 4:1,
+    200 s: coverage 0.84 raw, 0.925 on this scale, R = 120). The fitted model has slips
+    at the rate its barrier and noise imply, whether or not this record happened to show
+    one.
 
     ``psi``: unwrapped phase difference of one record (samples); ``stride``: samples per
     cycle of the slower rhythm. NaN ends when fewer than 10 cycles are given.
@@ -213,8 +219,13 @@ def phase_model_interval(psi: np.ndarray, stride: int, *, n_resamples: int, leve
     sims = np.hypot(acc_c, acc_s) / n
     theta = float(np.hypot(acc_c.sum(), acc_s.sum()) / (n * b))
     a = (1 - level) / 2
-    q_lo, q_hi = np.quantile(sims - theta, [a, 1 - a])
-    return Interval(float(min(max(g - q_hi, 0.0), 1.0)), float(min(max(g - q_lo, 0.0), 1.0)))
+    # basic interval on the scale u = log(1 - R), on which the spread of a concentrated
+    # PLV does not grow with the concentration (1 - R is about half the circular variance,
+    # whose sampling spread is proportional to itself)
+    u = lambda r: np.log(np.maximum(1.0 - np.asarray(r, float), 1e-12))  # noqa: E731
+    q_lo, q_hi = np.quantile(u(sims) - u(theta), [a, 1 - a])
+    lo, hi = 1.0 - np.exp(u(g) - q_lo), 1.0 - np.exp(u(g) - q_hi)
+    return Interval(float(min(max(lo, 0.0), 1.0)), float(min(max(hi, 0.0), 1.0)))
 
 
 def _dependence(family, data, row):

@@ -83,15 +83,47 @@ def test_locked_needs_more_than_chance_concentration_over_the_cycles():
     from syncstats.inference import choose_ratios, critical_plv, lock_floor
     from syncstats.inference._family import Row
 
-    rows = (Row("pair", "a", "b", 3, 1, 0, 100, "plv"), Row("pair", "c", "d", 3, 1, 0, 100, "plv"))
+    rows = (Row("pair", "a", "b", 3, 1, 0, 100, "plv", ("a", "b")),
+            Row("pair", "c", "d", 3, 1, 0, 100, "plv", ("c", "d")))
     design = SimpleNamespace(rows=rows)
     test = SimpleNamespace(p_adjusted=np.array([0.001, 0.001]), null_mean=np.array([0.015, 0.015]))
     floor = critical_plv(75, 0.05)
     assert lock_floor("plv", 75, 0.05) == floor and 0.19 < floor < 0.21  # sqrt(-ln 0.05 / 75) to first order
     observed = np.array([0.083, floor + 0.05])
-    ch = choose_ratios(design, {}, observed, test, alpha=0.05, n_resamples=0, seed=np.random.SeedSequence(1),
+    still = {k: np.zeros((1, 100)) for k in "abcd"}  # psi makes no net turn: entrained
+    ch = choose_ratios(design, still, observed, test, alpha=0.05, n_resamples=0, seed=np.random.SeedSequence(1),
                        n_cycles=np.array([75.0, 75.0]))
     assert list(ch.locked) == [False, True]
     # PPC: the floor is the PPC of the critical PLV; other measures have none
     assert lock_floor("ppc", 75, 0.05) == pytest.approx((75 * floor**2 - 1) / 74)
     assert lock_floor("entropy_index", 75, 0.05) == -np.inf
+
+
+def test_locked_needs_frequency_entrainment():
+    """A concentrated, significant row whose psi keeps turning (more than
+    MAX_DRIFT_PER_CYCLE net turns per cycle of the slower rhythm) is not locked: locking
+    means q·f_A = p·f_B (frequency entrainment; Pikovsky, Rosenblum & Kurths 2001, ch. 3
+    and 7: a fact of the trade). Built: psi turns 0.5 per cycle over 40 cycles (drift 0.5)
+    but dwells near 0 (non-uniform rotation: PLV about 0.6), next to a pair that dwells
+    without net turns. The drift is computed exactly: 20 turns / 40 cycles."""
+    from types import SimpleNamespace
+
+    from syncstats.inference import choose_ratios
+    from syncstats.inference._family import Row
+    from syncstats.inference._ratios import MAX_DRIFT_PER_CYCLE, drift_per_cycle
+
+    n = 4000
+    u = np.linspace(0, 2 * np.pi * 20, n)  # 20 net turns
+    dwelling = u - 0.9 * np.sin(u)  # slow near psi = 0 (mod 2 pi), fast through pi
+    data = {"a": dwelling[None, :], "b": np.zeros((1, n)), "c": 0.3 * np.sin(u)[None, :], "d": np.zeros((1, n))}
+    rows = (Row("pair", "a", "b", 1, 1, 0, n, "plv", ("a", "b")), Row("pair", "c", "d", 1, 1, 0, n, "plv", ("c", "d")))
+    design = SimpleNamespace(rows=rows)
+    observed = np.array([np.abs(np.exp(1j * dwelling).mean()), np.abs(np.exp(0.3j * np.sin(u)).mean())])
+    assert observed[0] > 0.3 and observed[1] > 0.9
+    drift = drift_per_cycle(design, data, np.array([40.0, 40.0]))
+    assert drift[0] == pytest.approx(0.5) and drift[1] == pytest.approx(0.0, abs=1e-9)
+    assert drift[0] > MAX_DRIFT_PER_CYCLE
+    test = SimpleNamespace(p_adjusted=np.array([0.001, 0.001]), null_mean=np.array([0.02, 0.02]))
+    ch = choose_ratios(design, data, observed, test, alpha=0.05, n_resamples=0, seed=np.random.SeedSequence(1),
+                       n_cycles=np.array([40.0, 40.0]))
+    assert list(ch.locked) == [False, True]
