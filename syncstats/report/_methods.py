@@ -318,7 +318,15 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
                         f"{text}.{fam}")
         if alpha is not None:
             para.append(f"A result was called significant when its corrected p-value was below "
-                        f"α = {float(alpha):g}.")
+                        f"α = {float(alpha):g}. Significance rejects independence only; a row was "
+                        "called locked when, in addition, its ratio had the largest debiased effect "
+                        "of its pair and window (the ratio certainty is the share of cycle-block "
+                        "bootstrap resamples in which it stayed the largest), its value exceeded "
+                        "the Rayleigh critical value for its number of cycles (more concentration "
+                        "than chance over that many independent cycles), and the phase difference "
+                        "made at most one net turn in four cycles of the slower rhythm (frequency "
+                        "entrainment; a ratio at which ψ keeps turning can show dependence, "
+                        "not a lock).")
     else:
         para.append("No surrogates were drawn (n_surrogates = 0), so no significance test was "
                     "made: the values are descriptive only.")

@@ -335,7 +335,7 @@ def markdown(rows) -> list[str]:
     return out
 
 
-SIZES = dict(coverage=40, ratios=40, weak=100, reference=100, pool=300)
+SIZES = dict(coverage=100, ratios=40, weak=100, reference=100, pool=300)
 QUICK = dict(coverage=10, ratios=10, weak=20, reference=20, pool=40)
 
 
