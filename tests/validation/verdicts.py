@@ -67,10 +67,20 @@ def _sim_options(sim, ratio):
     return out
 
 
-def _split(sc, events):
-    signals = {k: v for k, v in sc.signals.items() if k not in events}
-    ev = {k: sc.events[k] for k in events} if events else None
+def _split(sc, events, settle_s: float = 0.0):
+    """(signals, event times) of a replica, the first ``settle_s`` seconds cut off."""
+    cut = int(round(settle_s * FS))
+    signals = {k: v[cut:] for k, v in sc.signals.items() if k not in events}
+    ev = {k: sc.events[k][sc.events[k] >= settle_s] - settle_s for k in events} if events else None
     return signals, ev
+
+
+#: seconds simulated and cut off before every coverage record: the simulators start from
+#: fixed or random states, and weakly coupled units take a while to lock (Roessler: the
+#: first quarter of some 200-s records had PLV 0.44-0.55 against 0.96 after), which makes
+#: a short record's expected PLV lower than the long records' — no interval of the
+#: stationary value can cover that
+SETTLE_S = 100.0
 
 
 def _pair(batch):
@@ -131,11 +141,11 @@ def ratio_rows(replicas: int, workers: int, seed: int = 31, only=None):
 def _cov_chunk(args):
     fam, r0, r1, seed, duration, truth = args
     warnings.simplefilter("ignore")
-    b = scenario_batch(fam.kind, n_replicas=r1 - r0, coupled=True, ratio=fam.ratio, duration=duration, fs=FS,
-                       options=fam.options or None, rng=np.random.SeedSequence([seed, r0]))
+    b = scenario_batch(fam.kind, n_replicas=r1 - r0, coupled=True, ratio=fam.ratio, duration=duration + SETTLE_S,
+                       fs=FS, options=fam.options or None, rng=np.random.SeedSequence([seed, r0]))
     out = []
     for i in range(r1 - r0):
-        signals, ev = _split(b.replica(i), fam.events)
+        signals, ev = _split(b.replica(i), fam.events, SETTLE_S)
         t = syncstats.analyze(signals, fs=FS, events=ev, pairs=[_pair(b)], ratios=[fam.ratio], n_surrogates=0,
                               n_bootstrap=299, rng=r0 + i).table.iloc[0]
         out.append((t.ci_low <= truth <= t.ci_high, t.ci_high - t.ci_low, t.ci_low > truth))
@@ -143,11 +153,11 @@ def _cov_chunk(args):
 
 
 def _long_value(fam, seed, n_long=6, long_s=2000.0):
-    b = scenario_batch(fam.kind, n_replicas=n_long, coupled=True, ratio=fam.ratio, duration=long_s, fs=FS,
-                       options=fam.options or None, rng=np.random.SeedSequence([seed, 999]))
+    b = scenario_batch(fam.kind, n_replicas=n_long, coupled=True, ratio=fam.ratio, duration=long_s + SETTLE_S,
+                       fs=FS, options=fam.options or None, rng=np.random.SeedSequence([seed, 999]))
     vals = []
     for i in range(n_long):
-        signals, ev = _split(b.replica(i), fam.events)
+        signals, ev = _split(b.replica(i), fam.events, SETTLE_S)
         vals.append(syncstats.analyze(signals, fs=FS, events=ev, pairs=[_pair(b)], ratios=[fam.ratio],
                                       n_surrogates=0, n_bootstrap=0).table.value.iloc[0])
     return float(np.mean(vals)), float(np.std(vals, ddof=1) / np.sqrt(n_long))
@@ -229,9 +239,46 @@ def reference_rows(families, main_rows, *, replicas, pool, workers, main_seed=11
     return rows
 
 
+def _matched_chunk(args):
+    """(PLV, mean frequency of A, of B) per replica; uncoupled at given frequencies when
+    ``freqs`` is set."""
+    fam, coupled, coupling, noise, r0, r1, seed, duration, freqs = args
+    warnings.simplefilter("ignore")
+    kw = {"coupling": coupling} if coupled else {}
+    if freqs is not None:
+        kw.update(freq=freqs[1], detuning=freqs[0] / freqs[1] - 1.0)
+    b = scenario_batch(fam.kind, n_replicas=r1 - r0, coupled=coupled, ratio=fam.ratio, duration=duration, fs=FS,
+                       noise=noise, rng=np.random.SeedSequence([seed, r0]), **kw)
+    out = []
+    for i in range(r1 - r0):
+        signals, ev = _split(b.replica(i), fam.events)
+        v = float(syncstats.analyze(signals, fs=FS, events=ev, pairs=[_pair(b)], ratios=[fam.ratio], n_surrogates=0,
+                                    n_bootstrap=0).table.value.iloc[0])
+        ph = b.phases[i]
+        f = (ph[:, -1] - ph[:, 0]) / (2 * np.pi * duration)
+        out.append((v, float(f[0]), float(f[1])))
+    return out
+
+
+def matched_reference_power(fam, *, coupling, noise, replicas, pool, workers, seed, coupled_seed, duration):
+    """Power of the exact null built at the coupled pairs' own mean frequencies: uncoupled
+    replicas of the same model whose natural frequencies are the coupled replicas' mean
+    (pulled) frequencies. Coupling pulls the frequencies together, and any null that keeps
+    each rhythm's own dynamics (time shifts, IAAFT) keeps the pulled frequencies too; this
+    exact null shows how much of the natural-frequency exact null's power comes from the
+    pulling alone. Returns (power, (f_A, f_B))."""
+    alt = np.array(sum(_map(_matched_chunk, [(fam, True, coupling, noise, a, min(a + 10, replicas), coupled_seed,
+                                             duration, None) for a in range(0, replicas, 10)], workers), []))
+    freqs = (float(alt[:, 1].mean()), float(alt[:, 2].mean()))
+    null = np.array(sum(_map(_matched_chunk, [(fam, False, None, noise, a, min(a + 10, pool), seed, duration, freqs)
+                                              for a in range(0, pool, 10)], workers), []))
+    return float(np.mean(alt[:, 0] > np.quantile(null[:, 0], 1 - ALPHA))), freqs
+
+
 def weak_reference_rows(fam, *, replicas, pool, workers, seed=61, duration=300.0, noise=0.3):
     """Weakly coupled phase oscillators (0.4 x the default coupling: Adler nu 1.25, not
-    locked): exact-null power, and time_shift / IAAFT power on the same replicas."""
+    locked): exact-null power, and time_shift / IAAFT power on the same replicas; also as a
+    share of the exact null at the coupled pairs' own (pulled) mean frequencies."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         k_default = float(np.max(np.abs(scenario_batch(fam.kind, n_replicas=1, coupled=True, ratio=fam.ratio,
@@ -239,6 +286,9 @@ def weak_reference_rows(fam, *, replicas, pool, workers, seed=61, duration=300.0
     k_weak = 0.4 * k_default
     ref, ref39 = exact_reference_power(fam, replicas=replicas, pool=pool, workers=workers, seed=seed,
                                        duration=duration, coupling=k_weak, noise=noise)
+    matched, freqs = matched_reference_power(fam, coupling=k_weak, noise=noise, replicas=replicas, pool=pool,
+                                             workers=workers, seed=seed + 10, coupled_seed=seed + 1, duration=duration)
+    print("exact null at the pulled frequencies", freqs, matched, flush=True)
     rows = []
     for m in ("time_shift", "iaaft"):
         p = np.concatenate(_map(_reference_chunk, [(fam, m, True, k_weak, noise, a, min(a + 10, replicas), seed + 1,
@@ -246,7 +296,8 @@ def weak_reference_rows(fam, *, replicas, pool, workers, seed=61, duration=300.0
         pw = float(np.mean(p <= ALPHA))
         rows.append(dict(part="reference_weak", family=f"{fam.name}, weakly coupled (Adler nu 1.25)", method=m,
                          replicas=replicas, pool=pool, exact_power=ref, exact_power_s39=ref39, power=pw,
-                         share=pw / ref if ref > 0 else float("nan")))
+                         share=pw / ref if ref > 0 else float("nan"), exact_power_matched=matched,
+                         share_matched=pw / matched if matched > 0 else float("nan")))
         print(rows[-1], flush=True)
     return rows
 
@@ -266,8 +317,9 @@ def markdown(rows) -> list[str]:
     if len(cov):
         out += ["", "## Interval coverage of the long-record PLV", "",
                 "95 % intervals from `analyze` (block bootstrap widened by the phase-difference model, "
-                "299 resamples) on coupled replicas (200 s at 10 Hz); the reference value is the mean PLV of six "
-                "2000-s records of the same model (its standard error beside it). Target: >= 0.93.", "",
+                "299 resamples) on coupled replicas (200 s at 10 Hz, after 100 s of settling were simulated and "
+                "cut off); the reference value is the mean PLV of six 2000-s records of the same model (its "
+                "standard error beside it). Target: >= 0.93.", "",
                 "| family | ratio | replicas | long-record PLV | coverage | mean width | share of misses above |",
                 "|---|---|---|---|---|---|---|"]
         for _, r in cov.iterrows():
@@ -305,18 +357,24 @@ def markdown(rows) -> list[str]:
                        f"{f3(r, 'median_plv')} | {r.certainty:.3f} | {r.fwer_uncoupled:.3f} | "
                        f"{fpr_upper(int(r.replicas)):.3f} |")
         out += ["", "The van der Pol n:m tongues are narrow. At the simulator's default noise (0.015) the lock of "
-                "the noise-free labelling run hardly holds in a noisy record ('held' in the default-noise rows): "
-                "the scan then mostly names no ratio, which is right for runs that slip. Doubling the coupling "
-                "pulled the pair to 1:1 instead. With less noise the lock holds, but the rhythms become so regular "
-                "that every shifted copy is nearly as aligned as the data and the shift test loses power (3:2 at "
-                "noise 0.005 over 600 s: p_adjusted about 0.05 at PLV 0.85, the true ratio named in 4 of 8 trial "
-                "runs); at 0.0075 the 4:1 lock slipped in every trial run. The quiet rows use half the default "
-                "noise over 600 s (4:1 a third): a lock that holds, and rhythms irregular enough for a shift test. "
-                "Very regular rhythms need a longer record, whatever the null; `analyze` says so when few "
-                "effectively independent shifts remain. A surrogate test can also reject independence for a weak "
-                "steady dependence at a neighbouring ratio (van der Pol at 4:1: 3:1 with PLV 0.08 over 75 cycles, "
-                "p_adjusted 0.001), so `locked` also needs the value above the Rayleigh critical PLV for the row's "
-                "cycles."]
+                "the noise-free labelling run held in the noisy records only at 3:1 ('held' in the default-noise "
+                "rows); at 2:1, 4:1 and 3:2 psi wandered 14 to 45 rad over 300 s and the scan mostly named no "
+                "ratio, which is right for runs that slip. Doubling the coupling pulled the pair to 1:1 instead. "
+                "With less noise the lock holds, but the rhythms become so regular that every shifted copy is "
+                "nearly as aligned as the data and the shift test loses power (3:2 at noise 0.005 over 600 s: "
+                "p_adjusted about 0.05 at PLV 0.85, the true ratio named in 4 of 8 trial runs; at noise 0.0075 "
+                "the 4:1 lock slipped in every trial run). The quiet rows use half the default noise over 600 s "
+                "(4:1 a third). Short of the 0.90 target: quiet 4:1 (0.83 of the runs that held: the misses had "
+                "drifted by nearly pi inside the tongue, PLV 0.2 to 0.6, with a time-shift null as high as the "
+                "value: a miss of power, not a wrong ratio; every row warned of only 5 to 14 effectively "
+                "independent shifts) and quiet 2:1 counted over every coupled run (0.80; 0.93 over the runs "
+                "that held). Very regular rhythms need a longer record, whatever the null.", "",
+                "Two rules keep the neighbours of a lock from being named. `locked` needs the value above the "
+                "Rayleigh critical PLV for the row's cycles (a weak steady dependence: van der Pol near 4:1 gave "
+                "3:1 a PLV of 0.08 over 75 cycles with p_adjusted 0.001), and psi may make at most one net turn "
+                "in four cycles of the slower rhythm (frequency entrainment: near 3:2 at the default noise the "
+                "relaxation waveforms' harmonics gave 1:1 a PLV of 0.13 while its psi turned about 100 times in "
+                "300 s; 1:1 was named locked in 15 of 40 runs before this rule, in none after)."]
     ref = df[df.part.isin(["reference", "reference_weak"])] if "part" in df else df.iloc[:0]
     if len(ref):
         out += ["", "## Power against the exact-null reference", "",
@@ -325,13 +383,33 @@ def markdown(rows) -> list[str]:
                 "could do; 'at S = 39' runs that exact null as a Monte-Carlo test with 39 draws from the pool, as "
                 "the surrogate methods do (time_shift over every shift has no such limit). 'share' = the method's "
                 "power (same replicas) / the exact-null power. Target for time_shift and IAAFT on weakly coupled "
-                "phase oscillators: >= 0.95.", "",
-                "| family | method | replicas | null pool | exact-null power | exact null at S = 39 | power | share |",
-                "|---|---|---|---|---|---|---|---|"]
+                "phase oscillators: >= 0.95. 'pulled' = the exact null built at the coupled pairs' own mean "
+                "frequencies (uncoupled replicas whose natural frequencies are the frequencies the coupling "
+                "pulled the pair to), and the method's power as a share of it.", "",
+                "| family | method | replicas | null pool | exact-null power | exact null at S = 39 | power | share | "
+                "exact null, pulled | share of it |",
+                "|---|---|---|---|---|---|---|---|---|---|"]
+
+        def f3(r, c):
+            return f"{r[c]:.3f}" if c in r and pd.notna(r[c]) else "—"
+
         for _, r in ref.iterrows():
-            s39 = f"{r.exact_power_s39:.3f}" if "exact_power_s39" in r and pd.notna(r.exact_power_s39) else "—"
             out.append(f"| {r.family} | {r.method} | {int(r.replicas)} | {int(r.pool)} | {r.exact_power:.3f} | "
-                       f"{s39} | {r.power:.3f} | {r.share:.3f} |")
+                       f"{f3(r, 'exact_power_s39')} | {r.power:.3f} | {r.share:.3f} | "
+                       f"{f3(r, 'exact_power_matched')} | {f3(r, 'share_matched')} |")
+        weak = ref[ref.part == "reference_weak"]
+        if len(weak) and "exact_power_matched" in weak and weak.exact_power_matched.notna().any():
+            w = weak.iloc[0]
+            out += ["", "Weakly coupled, the pair is dependent but not locked: coupling pulls the two mean "
+                    "frequencies together, so psi turns more slowly than between independent units of the same "
+                    "natural frequencies, and the PLV rises. That part of the evidence lives in each rhythm's own "
+                    "frequency, which every null that keeps a rhythm's own dynamics (time shifts, IAAFT) keeps too: "
+                    f"the exact null drawn at the pulled frequencies has power {w.exact_power_matched:.2f} where the "
+                    f"one at the natural frequencies has {w.exact_power:.2f}. Against the pulled-frequency exact null "
+                    f"time_shift and IAAFT reach {', '.join(f'{x:.2f}' for x in weak.share_matched)} of its "
+                    "power. The 0.95 target against the natural-frequency exact null asks a data-driven null to "
+                    "see a frequency shift it cannot tell from the rhythms' own frequencies; we found no valid "
+                    "null that does."]
     return out
 
 
