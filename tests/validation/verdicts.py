@@ -76,11 +76,12 @@ def _split(sc, events, settle_s: float = 0.0):
 
 
 #: seconds simulated and cut off before every coverage record: the simulators start from
-#: fixed or random states, and weakly coupled units take a while to lock (Roessler: the
-#: first quarter of some 200-s records had PLV 0.44-0.55 against 0.96 after), which makes
-#: a short record's expected PLV lower than the long records' — no interval of the
-#: stationary value can cover that
-SETTLE_S = 100.0
+#: fixed or random states, and coupled units take a while to settle (Roessler: the first
+#: quarter of some 200-s records had PLV 0.44-0.55 against 0.96 after; after 100 s of
+#: settling, 200-s records still averaged 0.98503 ± 0.00035 against 0.98565 ± 0.00028 after
+#: 400 s and 0.98567 for the long records), which makes a short record's expected PLV lower
+#: than the long records' — no interval of the stationary value can cover that
+SETTLE_S = 400.0
 
 
 def _pair(batch):
@@ -317,7 +318,7 @@ def markdown(rows) -> list[str]:
     if len(cov):
         out += ["", "## Interval coverage of the long-record PLV", "",
                 "95 % intervals from `analyze` (block bootstrap widened by the phase-difference model, "
-                "299 resamples) on coupled replicas (200 s at 10 Hz, after 100 s of settling were simulated and "
+                "299 resamples) on coupled replicas (200 s at 10 Hz, after 400 s of settling were simulated and "
                 "cut off); the reference value is the mean PLV of six 2000-s records of the same model (its "
                 "standard error beside it). Target: >= 0.93.", "",
                 "| family | ratio | replicas | long-record PLV | coverage | mean width | share of misses above |",
@@ -366,8 +367,8 @@ def markdown(rows) -> list[str]:
                 "the 4:1 lock slipped in every trial run). The quiet rows use half the default noise over 600 s "
                 "(4:1 a third). Short of the 0.90 target: quiet 4:1 (0.83 of the runs that held: the misses had "
                 "drifted by nearly pi inside the tongue, PLV 0.2 to 0.6, with a time-shift null as high as the "
-                "value: a miss of power, not a wrong ratio; every row warned of only 5 to 14 effectively "
-                "independent shifts) and quiet 2:1 counted over every coupled run (0.80; 0.93 over the runs "
+                "value: a miss of power, not a wrong ratio; the rows warned of only 5 to 14 effectively "
+                "independent shifts in the 10 runs checked) and quiet 2:1 counted over every coupled run (0.80; 0.93 over the runs "
                 "that held). Very regular rhythms need a longer record, whatever the null.", "",
                 "Two rules keep the neighbours of a lock from being named. `locked` needs the value above the "
                 "Rayleigh critical PLV for the row's cycles (a weak steady dependence: van der Pol near 4:1 gave "
@@ -382,7 +383,9 @@ def markdown(rows) -> list[str]:
                 "uncoupled replicas of the same model (pool size in the table): the best any data-driven null "
                 "could do; 'at S = 39' runs that exact null as a Monte-Carlo test with 39 draws from the pool, as "
                 "the surrogate methods do (time_shift over every shift has no such limit). 'share' = the method's "
-                "power (same replicas) / the exact-null power. Target for time_shift and IAAFT on weakly coupled "
+                "power / the exact-null power (weakly coupled rows: the same 100 replicas; per-family rows: the "
+                "method's power from the main table, R = 200 coupled replicas, IAAFT and twin 60, and the exact "
+                "null on the first 100 of those replicas). Target for time_shift and IAAFT on weakly coupled "
                 "phase oscillators: >= 0.95. 'pulled' = the exact null built at the coupled pairs' own mean "
                 "frequencies (uncoupled replicas whose natural frequencies are the frequencies the coupling "
                 "pulled the pair to), and the method's power as a share of it.", "",
