@@ -58,7 +58,9 @@ RATIO_KINDS = (("phase oscillators", "phase", (), {}, 300.0),
                ("heart beats + breathing", "beats", ("heart",), {}, 300.0),
                ("van der Pol relaxation, quiet", "van_der_pol", (),
                 {"noise": 0.0075, (4, 1): {"noise": 0.005}}, 600.0),
-               ("van der Pol relaxation, default noise", "van_der_pol", (), {}, 300.0))
+               ("van der Pol relaxation, default noise", "van_der_pol", (), {}, 300.0),
+               # run for 4:1 only (--only): does a longer record give the shift test its power back?
+               ("van der Pol relaxation, quiet, 1200 s", "van_der_pol", (), {"noise": 0.005}, 1200.0))
 
 
 def _sim_options(sim, ratio):
