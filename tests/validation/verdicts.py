@@ -377,7 +377,9 @@ def markdown(rows) -> list[str]:
                 "drifted by nearly pi inside the tongue, PLV 0.2 to 0.6, with a time-shift null as high as the "
                 "value: a miss of power, not a wrong ratio; the rows warned of only 5 to 14 effectively "
                 "independent shifts in the 10 runs checked) and quiet 2:1 counted over every coupled run (0.80; 0.93 over the runs "
-                "that held). Very regular rhythms need a longer record, whatever the null.", "",
+                "that held). A longer record did not help at 4:1 (1200 s: more runs slipped, held 0.30, and 10 of "
+                "the 12 that held were named). Very regular rhythms need a longer record, whatever the null, and "
+                "a narrow tongue limits how long a noisy lock lasts.", "",
                 "Two rules keep the neighbours of a lock from being named. `locked` needs the value above the "
                 "Rayleigh critical PLV for the row's cycles (a weak steady dependence: van der Pol near 4:1 gave "
                 "3:1 a PLV of 0.08 over 75 cycles with p_adjusted 0.001), and psi may make at most one net turn "
