@@ -47,7 +47,9 @@ COLUMN_SPEC: tuple[Column, ...] = (
     Column("family", "object", "", "what the correction counted (tests of one measure: pairs x ratios x windows)"),
     Column("significant", "boolean", "", "p_adjusted < alpha: independence rejected at this row"),
     Column("locked", "boolean", "", "this row's ratio is the one the rhythms lock at (the largest debiased effect "
-           "among the ratios tested for the pair and window) and it is significant; empty when nothing was tested"),
+           "among the ratios tested for the pair and window), it is significant, its value exceeds the Rayleigh "
+           "critical value for its cycles, and psi makes at most one net turn in four cycles (frequency "
+           "entrainment); empty when nothing was tested"),
     Column("ratio_certainty", "float64", "", "share of cycle-block bootstrap resamples in which this pair's selected "
            "ratio keeps the largest debiased effect (0–1); empty where one ratio was tested"),
     Column("ci_low", "float64", "", "lower end of the confidence interval of value"),
