@@ -410,6 +410,14 @@ def markdown(rows) -> list[str]:
             out.append(f"| {r.family} | {r.method} | {int(r.replicas)} | {int(r.pool)} | {r.exact_power:.3f} | "
                        f"{f3(r, 'exact_power_s39')} | {r.power:.3f} | {r.share:.3f} | "
                        f"{f3(r, 'exact_power_matched')} | {f3(r, 'share_matched')} |")
+        qp = ref[(ref.part == "reference") & (ref.family == "quasi-periodic units") & (ref.method == "time_shift")]
+        if len(qp):
+            out += ["", f"time_shift keeps {qp.iloc[0].share:.2f} of the exact null's power on quasi-periodic units: "
+                    "their main rhythm is so regular that far-shifted copies stay nearly as aligned as the data "
+                    "(10 coupled runs checked: PLV 0.59-0.67, median PLV over shifts beyond 10 s 0.32-0.58; six of "
+                    "the ten rows warned of 5-10 effectively independent shifts). The same limit as for the quiet "
+                    "van der Pol pairs above: a shift test needs the rhythms' own phases to lose their alignment "
+                    "within the record."]
         weak = ref[ref.part == "reference_weak"]
         if len(weak) and "exact_power_matched" in weak and weak.exact_power_matched.notna().any():
             w = weak.iloc[0]
