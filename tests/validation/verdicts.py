@@ -414,7 +414,7 @@ def markdown(rows) -> list[str]:
         if len(qp):
             out += ["", f"time_shift keeps {qp.iloc[0].share:.2f} of the exact null's power on quasi-periodic units: "
                     "their main rhythm is so regular that far-shifted copies stay nearly as aligned as the data "
-                    "(10 coupled runs checked: PLV 0.59-0.67, median PLV over shifts beyond 10 s 0.32-0.58; six of "
+                    "(10 coupled runs checked: PLV 0.59-0.67, median PLV over shifts beyond 10 s 0.32-0.58; five of "
                     "the ten rows warned of 5-10 effectively independent shifts). The same limit as for the quiet "
                     "van der Pol pairs above: a shift test needs the rhythms' own phases to lose their alignment "
                     "within the record."]
