@@ -261,8 +261,7 @@ def analyze(
         table=table,
         diagnostics=diag_frame,
         params=_params(opt, inputs, pipe, design, options, level, ratios, started, plan)
-        | {"psi_drift_per_cycle": [None if d is None or not np.isfinite(d) else float(d)
-                                   for d in (chosen.drift if chosen.drift is not None else [None] * len(design.rows))]}
+        | {"psi_drift_per_cycle": [float(d) if np.isfinite(d) else None for d in chosen.drift]}
         | {k: v.params for k, v in extras.items()},
         null_distribution=None if null is None else np.ascontiguousarray(null.T),
         phase_differences=design.psi_samples(pipe.data),
@@ -484,7 +483,7 @@ def _correct_across(table, null, params, drift=None):
     best = t.groupby(["recording", "signal_a", "signal_b", "window_start_s", "measure"], sort=False)["effect"]
     selected = t["effect"].eq(best.transform("max")) | best.transform("size").eq(1)
     drift = drift if drift is not None and len(drift) == len(t) else [None] * len(t)
-    strong = pd.Series([v > inf.lock_floor(m, n, alpha) and not (d is not None and d > inf.MAX_DRIFT_PER_CYCLE)
+    strong = pd.Series([inf.lock_evidence(v, m, n, d, alpha)
                         for v, m, n, d in zip(t["value"], t["measure"], t["n_cycles"], drift)], index=t.index)
     t["locked"] = (selected & sig & strong).where(tested, pd.NA).astype("boolean")
     return t, f"the correction ({corr}) spans all {n_rec} recordings"

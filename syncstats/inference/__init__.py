@@ -13,7 +13,8 @@ from ._nulls import (NullJob, ShiftPlan, check_method, exact_shift_null, method_
                      null_distribution, shift_plan)
 from ._pvalues import (CORRECTION_METHODS, CORRECTIONS, Correction, adjust, max_stat_adjust, min_surrogates,
                        surrogate_pvalue)
-from ._ratios import MAX_DRIFT_PER_CYCLE, RatioChoice, choose_ratios, drift_per_cycle, lock_floor
+from ._ratios import (MAX_DRIFT_PER_CYCLE, RatioChoice, choose_ratios, drift_per_cycle, lock_evidence,
+                      lock_floor)
 from ._testing import FamilyTest, test_family
 
 __all__ = [
@@ -40,6 +41,7 @@ __all__ = [
     "block_ci",
     "choose_ratios",
     "drift_per_cycle",
+    "lock_evidence",
     "MAX_DRIFT_PER_CYCLE",
     "check_method",
     "make_design",

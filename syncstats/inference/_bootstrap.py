@@ -178,8 +178,8 @@ def phase_model_interval(psi: np.ndarray, stride: int, *, n_resamples: int, leve
     u = log(1 − R): [u(g) − q_hi, u(g) − q_lo] mapped back, with q the quantiles of
     u(PLV*) − u(theta), theta = |mean e^{i psi}| over all simulated samples. On that scale
     the spread of a concentrated PLV does not shrink with the record's own concentration
-    (1 − R is about half the circular variance, whose sampling spread is proportional to
-    itself); on the raw scale a record that happened to be tight got a narrow interval
+    (1 − R is the circular variance, Mardia & Jupp 2000 §2.3.1, recalled; for concentrated
+    angles its sampling spread is proportional to itself); on the raw scale a record that happened to be tight got a narrow interval
     that missed the long-record value from above (heart beats against breathing at 4:1,
     200 s: coverage 0.84 raw, 0.925 on this scale, R = 120). The fitted model has slips
     at the rate its barrier and noise imply, whether or not this record happened to show
@@ -220,7 +220,7 @@ def phase_model_interval(psi: np.ndarray, stride: int, *, n_resamples: int, leve
     theta = float(np.hypot(acc_c.sum(), acc_s.sum()) / (n * b))
     a = (1 - level) / 2
     # basic interval on the scale u = log(1 - R), on which the spread of a concentrated
-    # PLV does not grow with the concentration (1 - R is about half the circular variance,
+    # PLV does not grow with the concentration (1 - R is the circular variance,
     # whose sampling spread is proportional to itself)
     u = lambda r: np.log(np.maximum(1.0 - np.asarray(r, float), 1e-12))  # noqa: E731
     q_lo, q_hi = np.quantile(u(sims) - u(theta), [a, 1 - a])

@@ -26,7 +26,7 @@ import numpy as np
 
 from ._circular import critical_plv
 
-__all__ = ["RatioChoice", "choose_ratios", "lock_floor", "drift_per_cycle", "MAX_DRIFT_PER_CYCLE"]
+__all__ = ["RatioChoice", "choose_ratios", "lock_floor", "drift_per_cycle", "lock_evidence", "MAX_DRIFT_PER_CYCLE"]
 
 _CHUNK = 100  # resamples per chunk (memory: chunk x blocks x statistics)
 
@@ -39,7 +39,7 @@ class RatioChoice:
     locked: np.ndarray
     certainty: np.ndarray
     selected: np.ndarray  # bool: the row is its group's selected ratio
-    drift: np.ndarray | None = None  # net turns of psi per cycle (drift_per_cycle), NaN for groups
+    drift: np.ndarray  # net turns of psi per cycle (drift_per_cycle); NaN where not measured
 
 
 def lock_floor(measure: str, n_cycles: float, alpha: float) -> float:
@@ -82,6 +82,15 @@ def drift_per_cycle(design, data, n_cycles) -> np.ndarray:
     return out
 
 
+def lock_evidence(value, measure: str, n_cycles: float, drift, alpha: float) -> bool:
+    """Beyond selection and significance, what a locked row needs: a value above the
+    chance floor for its cycles (:func:`lock_floor`) and no more than
+    ``MAX_DRIFT_PER_CYCLE`` net turns of psi per cycle (``drift`` NaN or None: not
+    measured, no condition)."""
+    turning = drift is not None and np.isfinite(drift) and drift > MAX_DRIFT_PER_CYCLE
+    return bool(value > lock_floor(measure, n_cycles, alpha) and not turning)
+
+
 def choose_ratios(design, data, observed, test, *, alpha, n_resamples, seed, n_cycles=None) -> RatioChoice:
     rows = design.rows
     tested = not np.all(np.isnan(test.p_adjusted))
@@ -104,12 +113,9 @@ def choose_ratios(design, data, observed, test, *, alpha, n_resamples, seed, n_c
                        idx.index(best), n_resamples, rng)
         certainty[idx] = c
     sig = test.p_adjusted < alpha
+    drift = np.full(len(rows), np.nan) if n_cycles is None else drift_per_cycle(design, data, n_cycles)
     strong = np.ones(len(rows), bool) if n_cycles is None else np.array(
-        [observed[i] > lock_floor(r.measure, float(n_cycles[i]), alpha) for i, r in enumerate(rows)])
-    drift = None
-    if n_cycles is not None:
-        drift = drift_per_cycle(design, data, n_cycles)
-        strong &= ~(drift > MAX_DRIFT_PER_CYCLE)
+        [lock_evidence(observed[i], r.measure, float(n_cycles[i]), drift[i], alpha) for i, r in enumerate(rows)])
     locked = np.array([bool(selected[i] and sig[i] and strong[i]) if tested else None for i in range(len(rows))],
                       dtype=object)
     return RatioChoice(locked, certainty, selected, drift)

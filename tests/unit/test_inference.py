@@ -103,7 +103,7 @@ def test_locked_needs_frequency_entrainment():
     """A concentrated, significant row whose psi keeps turning (more than
     MAX_DRIFT_PER_CYCLE net turns per cycle of the slower rhythm) is not locked: locking
     means q·f_A = p·f_B (frequency entrainment; Pikovsky, Rosenblum & Kurths 2001, ch. 3
-    and 7: a fact of the trade). Built: psi turns 0.5 per cycle over 40 cycles (drift 0.5)
+    and 7, chapters recalled from memory: a fact of the trade). Built: psi turns 0.5 per cycle over 40 cycles (drift 0.5)
     but dwells near 0 (non-uniform rotation: PLV about 0.6), next to a pair that dwells
     without net turns. The drift is computed exactly: 20 turns / 40 cycles."""
     from types import SimpleNamespace

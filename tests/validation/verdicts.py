@@ -312,6 +312,11 @@ def _map(fn, jobs, workers):
     return [fn(j) for j in jobs]
 
 
+def _f3(r, c):
+    """A table cell: the row's value of column c to three decimals, or a dash."""
+    return f"{r[c]:.3f}" if c in r and pd.notna(r[c]) else "—"
+
+
 def markdown(rows) -> list[str]:
     """The verdict sections of docs/validation.md from the rows of all three parts."""
     df = pd.DataFrame(rows)
@@ -355,15 +360,12 @@ def markdown(rows) -> list[str]:
                 "|---|---|---|---|---|---|---|---|---|---|---|---|---|"]
         from .study import fpr_upper
 
-        def f3(r, c):
-            return f"{r[c]:.3f}" if c in r and pd.notna(r[c]) else "—"
-
         for _, r in rat.iterrows():
             dur = f"{r.duration:.0f}" if "duration" in r and pd.notna(r.duration) else "300"
             noise = f"{r.noise:g}" if "noise" in r and pd.notna(r.noise) else "—"
-            out.append(f"| {r.family} | {r.ratio} | {dur} | {noise} | {int(r.replicas)} | {f3(r, 'held_share')} | "
-                       f"{f3(r, 'exact_share')} | {f3(r, 'exact_all')} | {f3(r, 'wrong_share')} | "
-                       f"{f3(r, 'median_plv')} | {r.certainty:.3f} | {r.fwer_uncoupled:.3f} | "
+            out.append(f"| {r.family} | {r.ratio} | {dur} | {noise} | {int(r.replicas)} | {_f3(r, 'held_share')} | "
+                       f"{_f3(r, 'exact_share')} | {_f3(r, 'exact_all')} | {_f3(r, 'wrong_share')} | "
+                       f"{_f3(r, 'median_plv')} | {r.certainty:.3f} | {r.fwer_uncoupled:.3f} | "
                        f"{fpr_upper(int(r.replicas)):.3f} |")
         out += ["", "The van der Pol n:m tongues are narrow. At the simulator's default noise (0.015) the lock of "
                 "the noise-free labelling run held in the noisy records only at 3:1 ('held' in the default-noise "
@@ -403,13 +405,10 @@ def markdown(rows) -> list[str]:
                 "exact null, pulled | share of it |",
                 "|---|---|---|---|---|---|---|---|---|---|"]
 
-        def f3(r, c):
-            return f"{r[c]:.3f}" if c in r and pd.notna(r[c]) else "—"
-
         for _, r in ref.iterrows():
             out.append(f"| {r.family} | {r.method} | {int(r.replicas)} | {int(r.pool)} | {r.exact_power:.3f} | "
-                       f"{f3(r, 'exact_power_s39')} | {r.power:.3f} | {r.share:.3f} | "
-                       f"{f3(r, 'exact_power_matched')} | {f3(r, 'share_matched')} |")
+                       f"{_f3(r, 'exact_power_s39')} | {r.power:.3f} | {r.share:.3f} | "
+                       f"{_f3(r, 'exact_power_matched')} | {_f3(r, 'share_matched')} |")
         qp = ref[(ref.part == "reference") & (ref.family == "quasi-periodic units") & (ref.method == "time_shift")]
         if len(qp):
             out += ["", f"time_shift keeps {qp.iloc[0].share:.2f} of the exact null's power on quasi-periodic units: "
