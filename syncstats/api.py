@@ -434,6 +434,11 @@ def combine_results(results, *, correct_across: bool = True) -> AnalysisResult:
         if note:
             notes.append(note)
     notes.append(f"{len(results)} recordings analysed; figures show '{rec_long}', the longest")
+    dropped = [what for what in ("trial_locking", "clusters")
+               if any(getattr(r, what) is not None for r in results if r is not longest)]
+    if dropped:  # one result holds one of each; say so rather than drop them unannounced
+        notes.append(f"{' and '.join(d.replace('_', ' ') for d in dropped)}: shown and saved for '{rec_long}' only; "
+                     "analyse the other recordings one at a time for theirs")
     comps = [r.null_comparison for r in results if r.null_comparison is not None]
     if comps:  # each recording's own comparison (p_adjusted within the recording)
         longest = replace(longest, null_comparison=pd.concat(comps, ignore_index=True))

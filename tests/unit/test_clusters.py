@@ -123,3 +123,20 @@ def test_example_script_runs(tmp_path, monkeypatch):
     found = res.clusters.clusters
     assert sorted(sorted(m) for m in found) == [["unit_1", "unit_2", "unit_3"], ["unit_4", "unit_5", "unit_6"]]
     assert (tmp_path / "report" / "clusters.csv").is_file()
+
+
+def test_combining_recordings_names_whose_clusters_are_kept():
+    """combine_results keeps one cluster analysis (the longest recording's) and says so in
+    the notes instead of dropping the others unannounced."""
+    from syncstats.api import combine_results
+
+    runs = []
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", SyncstatsWarning)
+        for name, dur in (("short", 40.0), ("long", 60.0)):
+            runs.append(syncstats.analyze(two_clusters(duration=dur), fs=20, n_surrogates=0, n_bootstrap=0,
+                                          clusters=True, recording=name))
+    res = combine_results(runs)
+    assert res.clusters is runs[1].clusters
+    assert any("clusters: shown and saved for 'long' only" in n for n in res.notes), res.notes
+    assert not any("trial locking" in n for n in res.notes)

@@ -283,6 +283,30 @@ def matched_reference_power(fam, *, coupling, noise, replicas, pool, workers, se
     return float(np.mean(alt[:, 0] > np.quantile(null[:, 0], 1 - ALPHA))), freqs
 
 
+def far_shift_plv(fam, *, coupling, noise, freqs, replicas, seed, duration, far_s=20.0):
+    """Mean PLV over shifts beyond ``far_s`` seconds (the model's own phases, every shift by
+    one FFT): for coupled replicas, and for uncoupled replicas at the coupled pairs' mean
+    (pulled) frequencies ``freqs``. Beyond the phases' coherence time (about 20 s at noise
+    0.3) an independent pair's far shifts are as aligned as its observed alignment; if the
+    coupled pairs' far shifts are more aligned than that, part of the coupling survives the
+    shift and raises the time-shift null."""
+    from syncstats.nulls import shift_curve
+
+    out = []
+    for coupled in (True, False):
+        kw = {"coupling": coupling} if coupled else dict(freq=freqs[1], detuning=freqs[0] / freqs[1] - 1.0)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            b = scenario_batch(fam.kind, n_replicas=replicas, coupled=coupled, ratio=fam.ratio, duration=duration,
+                               fs=FS, noise=noise, rng=np.random.SeedSequence([seed, int(coupled)]), **kw)
+        n = b.phases.shape[-1]
+        lag = np.minimum(np.arange(n), n - np.arange(n)) / FS
+        far = np.array([shift_curve(b.phases[i, 0], b.phases[i, 1], p=fam.ratio[1], q=fam.ratio[0])[lag >= far_s]
+                        .mean() for i in range(replicas)])
+        out.append(float(far.mean()))
+    return tuple(out)
+
+
 #: (label, method, surrogates) run on the weakly coupled pairs; time_shift uses every shift
 #: (no Monte-Carlo draw). IAAFT at S = 39 has a smallest p-value of 0.025, so a replica
 #: must beat all but one of 39 surrogates; at S = 199 the Monte-Carlo granularity no longer
@@ -305,6 +329,9 @@ def weak_reference_rows(fam, *, replicas, pool, workers, seed=61, duration=300.0
     matched, freqs = matched_reference_power(fam, coupling=k_weak, noise=noise, replicas=replicas, pool=pool,
                                              workers=workers, seed=seed + 10, coupled_seed=seed + 1, duration=duration)
     print("exact null at the pulled frequencies", freqs, matched, flush=True)
+    far_c, far_u = far_shift_plv(fam, coupling=k_weak, noise=noise, freqs=freqs, replicas=min(replicas, 100),
+                                 seed=seed + 20, duration=duration)
+    print("mean PLV over far shifts: coupled", far_c, "independent at the pulled frequencies", far_u, flush=True)
     rows = []
     for label, m, n_surr in WEAK_METHODS:
         p = np.concatenate(_map(_reference_chunk, [(fam, m, True, k_weak, noise, a, min(a + 10, replicas), seed + 1,
@@ -314,7 +341,8 @@ def weak_reference_rows(fam, *, replicas, pool, workers, seed=61, duration=300.0
                          replicas=replicas, pool=pool, exact_power=ref,
                          exact_power_mc=np.nan if m == "time_shift" else mc[n_surr], power=pw,
                          share=pw / ref if ref > 0 else float("nan"), exact_power_matched=matched,
-                         share_matched=pw / matched if matched > 0 else float("nan")))
+                         share_matched=pw / matched if matched > 0 else float("nan"),
+                         far_shift_coupled=far_c, far_shift_independent=far_u))
         print(rows[-1], flush=True)
     return rows
 
@@ -435,16 +463,34 @@ def markdown(rows) -> list[str]:
         weak = ref[ref.part == "reference_weak"]
         if len(weak) and "exact_power_matched" in weak and weak.exact_power_matched.notna().any():
             w = weak.iloc[0]
+            by = {r.method: r for _, r in weak.iterrows()}
             out += ["", "Weakly coupled, the pair is dependent but not locked: coupling pulls the two mean "
                     "frequencies together, so psi turns more slowly than between independent units of the same "
                     "natural frequencies, and the PLV rises. That part of the evidence lives in each rhythm's own "
                     "frequency, which every null that keeps a rhythm's own dynamics (time shifts, IAAFT) keeps too: "
                     f"the exact null drawn at the pulled frequencies has power {w.exact_power_matched:.2f} where the "
-                    f"one at the natural frequencies has {w.exact_power:.2f}. Against the pulled-frequency exact null "
-                    f"time_shift and IAAFT reach {', '.join(f'{x:.2f}' for x in weak.share_matched)} of its "
-                    "power. The 0.95 target against the natural-frequency exact null asks a data-driven null to "
-                    "see a frequency shift it cannot tell from the rhythms' own frequencies; we found no valid "
-                    "null that does."]
+                    f"one at the natural frequencies has {w.exact_power:.2f}."]
+            if "iaaft, S = 199" in by and "iaaft" in by:
+                a, b = by["iaaft"], by["iaaft, S = 199"]
+                out[-1] += (f" IAAFT reaches {b.share:.2f} of the natural-frequency exact null's power with 199 "
+                            f"surrogates ({a.share:.2f} with 39: a replica must then beat all but one surrogate, and "
+                            "one whose p-value against the IAAFT null is 0.02 does so only 82 % of the time "
+                            "(binomial); the exact null's p-values are smaller, so 39 draws cost it nothing).")
+            if "time_shift" in by and "far_shift_coupled" in weak and pd.notna(by["time_shift"].far_shift_coupled):
+                t = by["time_shift"]
+                out[-1] += (f" time_shift keeps {t.share:.2f} of it ({t.share_matched:.2f} of the pulled-frequency "
+                            "exact null's): its shifted copies are not free of the coupling. psi slips about once "
+                            "every 45 s (the pulled frequencies differ by 0.022 Hz), and the slips modulate both "
+                            "rhythms' phase velocity, so "
+                            "far-shifted copies stay weakly aligned: the mean PLV over shifts beyond 20 s is "
+                            f"{t.far_shift_coupled:.3f} for coupled pairs against {t.far_shift_independent:.3f} for "
+                            "independent pairs at the same (pulled) frequencies (model phases, 100 replicas each). "
+                            "That raises the shift null by about "
+                            f"{100 * (t.far_shift_coupled / t.far_shift_independent - 1):.0f} %. Leaving out the "
+                            "shifts near the observed alignment does not remove it (the raised values are far "
+                            "shifts) and made the test invalid (see the time-shift note above). Short of the 0.95 "
+                            "target: time_shift on weakly coupled, slipping pairs; IAAFT with 199 or more "
+                            "surrogates is the stronger choice there.")
     return out
 
 
