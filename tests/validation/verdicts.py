@@ -506,8 +506,12 @@ def main(argv=None):
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--parts", default="coverage,ratios,weak,reference")
     ap.add_argument("--only", default="", help='ratio cells to re-run, e.g. "van der Pol relaxation=2:1;..."')
+    ap.add_argument("--ratio-replicas", type=int, default=None,
+                    help="replicas per ratio cell (default 40); the first 40 are the default run's")
     a = ap.parse_args(argv)
-    size = QUICK if a.quick else SIZES
+    size = dict(QUICK if a.quick else SIZES)
+    if a.ratio_replicas:
+        size["ratios"] = a.ratio_replicas
     parts = set(a.parts.split(","))
     main_csv = CSV.with_name("validation.csv")
     main_rows = pd.read_csv(main_csv).to_dict("records") if main_csv.exists() else []
