@@ -235,7 +235,7 @@ def analyze(
             null = inf.null_distribution(pipe, design.family, opt.surrogate, opt.n_surrogates, opt.seed,
                                          options=options, batch_size=opt.batch_size, memory_mb=opt.memory_mb,
                                          executor=executor, n_jobs=opt.n_jobs, progress=opt.progress)
-    pref, ncyc = design.row_summaries(pipe.data)
+    pref, ncyc, moment1, moment2 = design.row_summaries(pipe.data)
     test = inf.test_family(observed, null, design, opt.correction, opt.alpha, n_cycles=ncyc)
     chosen = inf.choose_ratios(design, pipe.data, observed, test, alpha=opt.alpha,
                                n_resamples=opt.n_bootstrap or 199, seed=opt.seed, n_cycles=ncyc)
@@ -247,7 +247,8 @@ def analyze(
     table = build_table(
         design, recording=inputs.recording, time_s=pipe.time_s, fs=pipe.inputs.fs, observed=observed, test=test,
         ratios=chosen, intervals=intervals, preferred_phase=pref, n_cycles=ncyc,
-        row_warnings=_row_warnings(design, diags, method_warn, ncyc, test, opt.n_surrogates, plan),
+        row_warnings=_row_warnings(design, diags, method_warn, ncyc, test, opt.n_surrogates, plan,
+                                   (moment1, moment2)),
         surrogate=opt.surrogate, n_surrogates=0 if null is None else null.shape[0], alpha=opt.alpha, ci_level=opt.ci_level,
         ci_method=opt.ci_method, n_bootstrap=opt.n_bootstrap, null_level=level,
     )
@@ -309,7 +310,9 @@ def _method_warnings(method, pipe, options):
     return {n: w for n, w in out.items() if w}
 
 
-def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates, plan=None):
+def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates, plan, moments):
+    """Per row: the list of warnings (rhythms, ratio, cycles, surrogates, shift resolution,
+    two states of psi). ``moments``: the first two circular moments of psi per row."""
     by_name = {d.signal: list(d.warnings) for d in diags}
     out = []
     for i, r in enumerate(design.rows):
@@ -324,6 +327,8 @@ def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates, plan
             wl.append(f"too few surrogates for the family ({n_surrogates})")
         if plan is not None and plan.row_warning(i):
             wl.append(plan.row_warning(i))
+        if two := inf.two_state_warning(moments[0][i], moments[1][i], n_cycles[i]):
+            wl.append(two)
         out.append(wl)
     return out
 

@@ -14,12 +14,13 @@ from ._nulls import (NullJob, ShiftPlan, check_method, exact_shift_null, method_
 from ._pvalues import (CORRECTION_METHODS, CORRECTIONS, Correction, adjust, max_stat_adjust, min_surrogates,
                        surrogate_pvalue)
 from ._ratios import (MAX_DRIFT_PER_CYCLE, RatioChoice, choose_ratios, drift_per_cycle, lock_evidence,
-                      lock_floor)
+                      lock_floor, two_state_warning)
 from ._testing import FamilyTest, test_family
 
 __all__ = [
     "critical_plv",
     "lock_floor",
+    "two_state_warning",
     "CI_METHODS",
     "CORRECTIONS",
     "CORRECTION_METHODS",

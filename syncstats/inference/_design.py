@@ -78,15 +78,18 @@ class Design:
                 f"x {len(self.windows)} window(s)")
 
     def row_summaries(self, data: dict):
-        """Per row: preferred phase (circular mean of psi, NaN for a group) and cycles of
-        the slower rhythm in the row's window."""
-        pref, ncyc = np.full(len(self.rows), np.nan), np.zeros(len(self.rows))
+        """Per row: preferred phase (circular mean of psi), cycles of the slower rhythm in
+        the row's window, and the first two circular moments of psi, |<exp(i psi)>| and
+        |<exp(2i psi)>| (NaN for a group)."""
+        k = len(self.rows)
+        pref, ncyc, r1, r2 = np.full(k, np.nan), np.zeros(k), np.full(k, np.nan), np.full(k, np.nan)
         for i, r in enumerate(self.rows):
             v = r.view(data)
             if r.kind == "pair":
-                pref[i] = float(M.preferred_phase(v.psi.reshape(-1)))
+                psi = v.psi.reshape(-1)
+                pref[i], r1[i], r2[i] = M.preferred_phase(psi), M.plv(psi), M.plv(2.0 * psi)
             ncyc[i] = min(_cycles(ph) for ph in v.members)
-        return pref, ncyc
+        return pref, ncyc, r1, r2
 
     def psi_samples(self, data: dict) -> dict:
         """(a, b, p, q) -> psi over the whole span wrapped to (−π, π], about 20 samples per

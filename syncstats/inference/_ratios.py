@@ -26,7 +26,8 @@ import numpy as np
 
 from ._circular import critical_plv
 
-__all__ = ["RatioChoice", "choose_ratios", "lock_floor", "drift_per_cycle", "lock_evidence", "MAX_DRIFT_PER_CYCLE"]
+__all__ = ["RatioChoice", "choose_ratios", "lock_floor", "drift_per_cycle", "lock_evidence", "MAX_DRIFT_PER_CYCLE",
+           "two_state_warning"]
 
 _CHUNK = 100  # resamples per chunk (memory: chunk x blocks x statistics)
 
@@ -53,6 +54,28 @@ def lock_floor(measure: str, n_cycles: float, alpha: float) -> float:
         g = critical_plv(n_cycles, alpha)
         return (n_cycles * g * g - 1.0) / (n_cycles - 1.0) if np.isfinite(g) else float("inf")
     return float("-inf")
+
+
+#: chance level for the second circular moment in :func:`two_state_warning`: strict, since
+#: the warning is looked for on every row
+TWO_STATE_LEVEL = 0.001
+
+
+def two_state_warning(r1: float, r2: float, n_cycles: float) -> str:
+    """A warning when psi has two preferred values half a turn apart: the second circular
+    moment |<exp(2i psi)>| (``r2``) above the first (``r1``) and above what independent
+    angles reach over ``n_cycles`` cycles with probability ``TWO_STATE_LEVEL``.
+
+    A one-peaked psi has r2 below r1 (wrapped normal: r2 = r1^4; von Mises: I2/I0 < I1/I0).
+    Two peaks half a turn apart cancel in r1 but not in r2: odd-symmetric oscillators
+    (waveforms with x -> -x symmetry) locked at p:q with p + q odd have two equivalent
+    states, and noise makes psi jump between them, which can bring the whole-record PLV
+    close to zero although psi stays locked on either side of each jump."""
+    if not (np.isfinite(r1) and np.isfinite(r2)) or r2 <= r1 or r2 <= critical_plv(n_cycles, TWO_STATE_LEVEL):
+        return ""
+    return (f"psi has two preferred values half a turn apart (|<exp(2i psi)>| = {r2:.2f} against a PLV of "
+            f"{r1:.2f}): the rhythms may hold this ratio but jump between two equivalent states, which cancels the "
+            "PLV; analyse the record in windows or epochs to see the stretches")
 
 
 #: net turns of psi per cycle of the slower rhythm above which a ratio is not called

@@ -330,6 +330,11 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     else:
         para.append("No surrogates were drawn (n_surrogates = 0), so no significance test was "
                     "made: the values are descriptive only.")
+    if table is not None and "warnings" in table and table["warnings"].str.contains("two preferred values").any():
+        para.append("Rows were flagged when ψ had two preferred values half a turn apart: its second circular "
+                    "moment |⟨exp(2iψ)⟩| above its first and above the Rayleigh critical value at 0.001 for the "
+                    "row's cycles. Rhythms with symmetric waveforms can hold a p:q lock in two such states and "
+                    "jump between them, which cancels the PLV although ψ stays locked between the jumps.")
 
     from ._compare import methods_sentence
 

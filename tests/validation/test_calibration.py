@@ -247,14 +247,57 @@ def test_a_harmonic_of_a_lock_is_not_named_locked():
     assert dependent >= 1  # the dependence is still reported (significant rows), only not as a lock
 
 
+def test_two_lock_states_half_a_turn_apart_are_flagged_and_nothing_else_is():
+    """Quiet van der Pol units locked 4:1 (the ratio part's family: noise 0.005, 600 s at
+    10 Hz). The units are odd-symmetric, so the 4:1 lock has two equivalent states half a
+    turn apart; runs whose true psi jumped between them (a half-turn slip, no full one)
+    have a 4:1 PLV as low as 0.03 and must carry the two-state warning; runs that kept the
+    lock must not. Independent pairs and one-peaked locks, scanned over six ratios, must
+    not either: 0 of 1680 rows warned in the development check (40 replicas each of
+    independent phase, Stuart-Landau, van der Pol and beat pairs, locked phase pairs at 1:1
+    and 2:1, locked van der Pol at 3:1)."""
+    from syncstats.report._methods import methods_text
+    from syncstats.simulate import phase_slips
+
+    from .verdicts import RATIO_KINDS, SCAN, _sim_options, kept_lock
+
+    label, kind, events, sim, duration = RATIO_KINDS[2]
+    assert label == "van der Pol relaxation, quiet"
+    b = scenario_batch(kind, n_replicas=10, coupled=True, ratio=(4, 1), duration=duration, fs=FS,
+                       rng=np.random.SeedSequence([252, 60]), **_sim_options(sim, (4, 1)))
+    jumped = kept = 0
+    for i in range(10):
+        a_, b_ = b.phases[i]
+        half_only = phase_slips(a_, b_, ratio=(4, 1)) == 0 and not kept_lock(kind, a_, b_, (4, 1))
+        if not (half_only or kept_lock(kind, a_, b_, (4, 1))):
+            continue
+        res = syncstats.analyze(b.replica(i).signals, fs=FS, ratios=[(4, 1)], n_surrogates=0, n_bootstrap=0)
+        t = res.table
+        warned = "two preferred values" in t.warnings.iloc[0]
+        assert warned == half_only, f"run {i}: half-turn slip {half_only}, warned {warned}, PLV {t.value.iloc[0]:.2f}"
+        assert ("two preferred values" in methods_text(res)) == half_only  # the methods text says why
+        jumped, kept = jumped + half_only, kept + (not half_only)
+    assert jumped >= 2 and kept >= 2, (jumped, kept)
+    r = 20 if FULL else 8
+    for kind, coupled, ratio in (("phase", False, (1, 1)), ("van_der_pol", False, (2, 1)),
+                                 ("phase", True, (2, 1)), ("van_der_pol", True, (3, 1))):
+        bb = scenario_batch(kind, n_replicas=r, coupled=coupled, ratio=ratio, duration=300.0, fs=FS,
+                            rng=np.random.SeedSequence([253]))
+        for i in range(r):
+            t = syncstats.analyze(bb.replica(i).signals, fs=FS, ratios=list(SCAN), n_surrogates=0,
+                                  n_bootstrap=0).table
+            assert not any("two preferred values" in w for w in t.warnings), (kind, coupled, ratio, i)
+
+
 def test_shift_and_iaaft_power_against_the_exact_null_of_weakly_coupled_oscillators():
     """Weakly coupled phase oscillators (0.4 x the default coupling, Adler nu 1.25: dependent,
     not locked; noise 0.3 rad/sqrt(s), 300 s at 10 Hz). The exact-null reference (the 95 %
     quantile of the PLVs of uncoupled replicas of the same model: a closed definition, the
     best any data-driven null can do) and time_shift over every shift on the same coupled
     replicas. Measured at R = 200, pool 300 (docs/validation.md): exact 0.985, time_shift
-    0.89, IAAFT at 199 surrogates 0.955. The reduced check fails when time_shift loses a large part of that power
-    (the old five-cycle minimum shift detected 21 of 30 where 27 were possible)."""
+    0.89, IAAFT at 199 surrogates 0.955. The reduced check fails when time_shift loses a
+    large part of that power (the old five-cycle minimum shift detected 21 of 30 where 27
+    were possible)."""
     from .verdicts import _reference_chunk
 
     fam = FAM["phase oscillators"]
