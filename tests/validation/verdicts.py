@@ -49,7 +49,7 @@ RATIOS = ((2, 1), (3, 1), (4, 1), (3, 2))
 #: in s; options keyed by a ratio apply to that ratio only). The van der Pol n:m tongues
 #: are narrow: at the simulator's default noise (0.015) the lock of the noise-free
 #: labelling run hardly holds in a noisy record, and stronger coupling pulls the pair to
-#: 1:1 instead. Less noise keeps the lock but makes the rhythms so regular that every
+#: another ratio (4:1 at twice the coupling: 3:1). Less noise keeps the lock but makes the rhythms so regular that every
 #: shifted copy is nearly as aligned, and the shift test loses power (3:2 at noise 0.005:
 #: p_adjusted about 0.05 at PLV 0.85 over 600 s). The quiet family therefore runs at half
 #: the noise over 600 s (4:1, whose tongue is narrowest, at a third); the default-noise
@@ -435,18 +435,19 @@ def markdown(rows) -> list[str]:
         out += ["", "The van der Pol n:m tongues are narrow. At the simulator's default noise (0.015) the lock of "
                 "the noise-free labelling run held in the noisy records only at 3:1 ('held' in the default-noise "
                 "rows); at 2:1, 4:1 and 3:2 psi wandered 14 to 45 rad over 300 s and the scan mostly named no "
-                "ratio, which is right for runs that slip. Doubling the coupling pulled the pair to 1:1 instead. "
-                "With less noise the lock holds, but the rhythms become so regular that every shifted copy is "
-                "nearly as aligned as the data and the shift test loses power (3:2 at noise 0.005 over 600 s: "
-                "p_adjusted about 0.05 at PLV 0.85, the true ratio named in 4 of 8 trial runs; at noise 0.0075 "
-                "the 4:1 lock slipped in every trial run). The quiet rows use half the default noise over 600 s "
-                "(4:1 a third). Short of the 0.90 target: quiet 4:1 (0.83 of the runs that held: the misses had "
-                "drifted by nearly pi inside the tongue, PLV 0.2 to 0.6, with a time-shift null as high as the "
-                "value: a miss of power, not a wrong ratio; the rows warned of only 5 to 14 effectively "
-                "independent shifts in the 10 runs checked) and quiet 2:1 counted over every coupled run (0.80; 0.93 over the runs "
-                "that held). A longer record did not help at 4:1 (1200 s: more runs slipped, held 0.30, and 10 of "
-                "the 12 that held were named). Very regular rhythms need a longer record, whatever the null, and "
-                "a narrow tongue limits how long a noisy lock lasts.", "",
+                "ratio, which is right for runs that slip. Stronger coupling pulled the pair to another ratio "
+                "(4:1 at twice the coupling: 3:1; at four times: 1:1). The quiet rows use half the default noise "
+                "over 600 s (4:1 a third). The van der Pol units are odd-symmetric (x -> -x), so at 2:1, 4:1 and "
+                "3:2 (p + q odd) a lock has two equivalent states half a turn apart, and noise makes psi jump "
+                "between them: psi stays locked on either side of a jump, but the whole-record PLV cancels "
+                "(quiet 4:1: 0.02 to 0.05 in runs whose true psi made one such jump and no full slip). These "
+                "rows count a half turn as a slip (`kept_lock`), and such rows carry the two-state warning (in "
+                "ten quiet 4:1 runs it fired on the three with a half-turn jump and no full slip and on neither "
+                "of the two that kept the lock). Every run that kept its lock was named exactly (quiet 4:1: 25 "
+                "of 25 at R = 80; over 1200 s 15 of 15). Counted by full turns only, the quiet 4:1 cell named "
+                "30 of 41, and every miss was a run with a half-turn jump. A longer record does not help: more "
+                "runs jump (1200 s: held 0.19). Regular rhythms also cost the shift test power: at noise 0.005 "
+                "the rows warned of only 5 to 15 effectively independent shifts.", "",
                 "Two rules keep the neighbours of a lock from being named. `locked` needs the value above the "
                 "Rayleigh critical PLV for the row's cycles (a weak steady dependence: van der Pol near 4:1 gave "
                 "3:1 a PLV of 0.08 over 75 cycles with p_adjusted 0.001), and psi may make at most one net turn "
