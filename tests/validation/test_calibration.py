@@ -252,7 +252,7 @@ def test_two_lock_states_half_a_turn_apart_are_flagged_and_nothing_else_is():
     10 Hz). The units are odd-symmetric, so the 4:1 lock has two equivalent states half a
     turn apart; runs whose true psi jumped between them (a half-turn slip, no full one)
     have a 4:1 PLV as low as 0.03 and must carry the two-state warning; runs that kept the
-    lock must not. Independent pairs and one-peaked locks, scanned over six ratios, must
+    lock must not, and the six-ratio scan must name exactly 4:1 on them. Independent pairs and one-peaked locks, scanned over six ratios, must
     not either: 0 of 1680 rows warned in the development check (40 replicas each of
     independent phase, Stuart-Landau, van der Pol and beat pairs, locked phase pairs at 1:1
     and 2:1, locked van der Pol at 3:1)."""
@@ -276,6 +276,10 @@ def test_two_lock_states_half_a_turn_apart_are_flagged_and_nothing_else_is():
         warned = "two preferred values" in t.warnings.iloc[0]
         assert warned == half_only, f"run {i}: half-turn slip {half_only}, warned {warned}, PLV {t.value.iloc[0]:.2f}"
         assert ("two preferred values" in methods_text(res)) == half_only  # the methods text says why
+        if not half_only:  # a run that kept the lock: the scan names exactly 4:1 (25 of 25 at R = 80)
+            t = syncstats.analyze(b.replica(i).signals, fs=FS, ratios=list(SCAN), surrogate="time_shift",
+                                  correction="max_stat", n_bootstrap=0, rng=i).table
+            assert list(t.ratio[t.locked.fillna(False).astype(bool)]) == ["4:1"], f"run {i}"
         jumped, kept = jumped + half_only, kept + (not half_only)
     assert jumped >= 2 and kept >= 2, (jumped, kept)
     r = 20 if FULL else 8
