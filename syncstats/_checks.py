@@ -155,7 +155,9 @@ def parse_ratios(spec) -> list[tuple[int, int]]:
         g = math.gcd(p, q)
         if g != 1:
             raise SyncstatsInputError(
-                f"ratio {p}:{q} is not in lowest terms; it tests the same locking as {p // g}:{q // g}, use that."
+                f"ratio {p}:{q} is not in lowest terms; give {p // g}:{q // g} (psi at {p}:{q} is {g} times psi at "
+                f"{p // g}:{q // g}; the {p // g}:{q // g} row warns when its psi has two preferred values half a "
+                "turn apart)."
             )
         out.append((p, q))
     return list(dict.fromkeys(out))
