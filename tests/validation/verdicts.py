@@ -49,9 +49,9 @@ RATIOS = ((2, 1), (3, 1), (4, 1), (3, 2))
 #: in s; options keyed by a ratio apply to that ratio only). The van der Pol n:m tongues
 #: are narrow: at the simulator's default noise (0.015) the lock of the noise-free
 #: labelling run hardly holds in a noisy record, and stronger coupling pulls the pair to
-#: another ratio (4:1 at twice the coupling: 3:1). Less noise keeps the lock but makes the rhythms so regular that every
-#: shifted copy is nearly as aligned, and the shift test loses power (3:2 at noise 0.005:
-#: p_adjusted about 0.05 at PLV 0.85 over 600 s). The quiet family therefore runs at half
+#: another ratio (4:1 at twice the coupling: 3:1). Less noise keeps the lock but makes the
+#: rhythms so regular that every shifted copy is nearly as aligned, and the shift test
+#: loses power (3:2 at noise 0.005: p_adjusted about 0.05 at PLV 0.85 over 600 s). The quiet family therefore runs at half
 #: the noise over 600 s (4:1, whose tongue is narrowest, at a third); the default-noise
 #: family is kept as the record of the failure.
 RATIO_KINDS = (("phase oscillators", "phase", (), {}, 300.0),
@@ -95,9 +95,9 @@ def _pair(batch):
 #: models whose equations are odd-symmetric (x -> -x maps solutions to solutions): shifting
 #: both units by half a cycle moves psi = q phi_A - p phi_B by (q - p) pi, so for p + q odd
 #: a p:q lock has two equivalent states half a turn apart, and noise makes psi jump
-#: between them (quiet van der Pol 4:1: psi held within 0.97 of its mean on either side of
-#: one jump of about pi, the whole-record PLV 0.02-0.05; the 3:1 lock, p + q even, has one
-#: state and held in every run)
+#: between them (quiet van der Pol 4:1: the PLV of every tenth of the record was 0.97 on
+#: either side of one jump of about pi, the whole-record PLV 0.02-0.05; the 3:1 lock,
+#: p + q even, has one state and held in every run)
 SYMMETRIC_KINDS = ("van_der_pol",)
 
 
