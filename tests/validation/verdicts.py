@@ -51,9 +51,9 @@ RATIOS = ((2, 1), (3, 1), (4, 1), (3, 2))
 #: labelling run hardly holds in a noisy record, and stronger coupling pulls the pair to
 #: another ratio (4:1 at twice the coupling: 3:1). Less noise keeps the lock but makes the
 #: rhythms so regular that every shifted copy is nearly as aligned, and the shift test
-#: loses power (3:2 at noise 0.005: p_adjusted about 0.05 at PLV 0.85 over 600 s). The quiet family therefore runs at half
-#: the noise over 600 s (4:1, whose tongue is narrowest, at a third); the default-noise
-#: family is kept as the record of the failure.
+#: loses power (3:2 at noise 0.005: p_adjusted about 0.05 at PLV 0.85 over 600 s). The
+#: quiet family therefore runs at half the noise over 600 s (4:1, whose tongue is
+#: narrowest, at a third); the default-noise family is kept as the record of the failure.
 RATIO_KINDS = (("phase oscillators", "phase", (), {}, 300.0),
                ("heart beats + breathing", "beats", ("heart",), {}, 300.0),
                ("van der Pol relaxation, quiet", "van_der_pol", (),
