@@ -252,8 +252,8 @@ def test_two_lock_states_half_a_turn_apart_are_flagged_and_nothing_else_is():
     10 Hz). The units are odd-symmetric, so the 4:1 lock has two equivalent states half a
     turn apart; runs whose true psi jumped between them (a half-turn slip, no full one)
     have a 4:1 PLV as low as 0.03 and must carry the two-state warning; runs that kept the
-    lock must not, and the six-ratio scan must name exactly 4:1 on them. Independent pairs and one-peaked locks, scanned over six ratios, must
-    not either: 0 of 1680 rows warned in the development check (40 replicas each of
+    lock must not, and the six-ratio scan must name exactly 4:1 on them. Independent pairs
+    and one-peaked locks, scanned over six ratios, must not warn either: 0 of 1680 rows warned in the development check (40 replicas each of
     independent phase, Stuart-Landau, van der Pol and beat pairs, locked phase pairs at 1:1
     and 2:1, locked van der Pol at 3:1)."""
     from syncstats.report._methods import methods_text
