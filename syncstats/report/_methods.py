@@ -170,6 +170,16 @@ def _windows_text(windows, table) -> str:
     return f"in {len(spans)} windows of {ltxt} between {lo:g} and {hi:g} s"
 
 
+def _two_state_sentence(table) -> str:
+    """How rows with two lock states were flagged ("" when no row was)."""
+    if table is None or "warnings" not in table or not table["warnings"].str.contains("two preferred values").any():
+        return ""
+    return ("Rows were flagged when ψ had two preferred values half a turn apart: its second circular "
+            "moment |⟨exp(2iψ)⟩| above its first and above the Rayleigh critical value at 0.001 for the "
+            "row's cycles. Rhythms with symmetric waveforms can hold a p:q lock in two such states and "
+            "jump between them, which cancels the PLV although ψ stays locked between the jumps.")
+
+
 def _ci_sentence(params: dict, table, cite) -> str:
     has_ci = table is not None and not table.empty and table["ci_low"].notna().any()
     n_boot = params.get("n_bootstrap")
@@ -330,11 +340,8 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     else:
         para.append("No surrogates were drawn (n_surrogates = 0), so no significance test was "
                     "made: the values are descriptive only.")
-    if table is not None and "warnings" in table and table["warnings"].str.contains("two preferred values").any():
-        para.append("Rows were flagged when ψ had two preferred values half a turn apart: its second circular "
-                    "moment |⟨exp(2iψ)⟩| above its first and above the Rayleigh critical value at 0.001 for the "
-                    "row's cycles. Rhythms with symmetric waveforms can hold a p:q lock in two such states and "
-                    "jump between them, which cancels the PLV although ψ stays locked between the jumps.")
+    if two := _two_state_sentence(table):
+        para.append(two)
 
     from ._compare import methods_sentence
 
