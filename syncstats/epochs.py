@@ -333,114 +333,38 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
     child stream of ``seed`` (spawn key + (EPOCH_STREAM,)), so ``analyze(epochs=True)``
     and :func:`locking_epochs` with the same seed agree.
     """
-    if pipe.inputs.n_trials != 1:
-        raise SyncstatsInputError(
-            f"synchronization epochs need one continuous record, but the inputs hold {pipe.inputs.n_trials} trials; "
-            "analyse trials without epochs, or one trial at a time."
-        )
-    fs, n, t = pipe.inputs.fs, pipe.span_n, pipe.time_s
-    keys = []
-    for r in design.rows:
-        if r.kind == "pair":
-            k = _Key(r.a, r.b, r.p, r.q, r.stride)
-            if k not in keys:
-                keys.append(k)
-    if not keys:
-        raise SyncstatsInputError(
-            "epochs are found for pairs of rhythms, but no pair is tested (the measures are group measures only); "
-            "add a pair measure such as plv, or leave epochs off."
-        )
-    fam = EpochFamily(tuple(keys), opt, fs, int(n))
-    notes = []
-    short = [k for k in keys if fam.n_windows(k) < 1]
-    if short:
-        k = short[0]
-        raise SyncstatsInputError(
-            f"the pair ({k.a}, {k.b}) has fewer whole cycles ({n // k.stride}) than one epoch window "
-            f"({opt.window_cycles} cycles); record longer or lower the epoch window (window_cycles; --epoch-window on the command line)."
-        )
+    keys, fam = _epoch_family(pipe, design, opt)
     obs = fam.evaluate(pipe.data)
     null = None
     if n_surrogates:
         eseed = np.random.SeedSequence(seed.entropy, spawn_key=tuple(seed.spawn_key) + (EPOCH_STREAM,))
         null = inf.null_distribution(pipe, fam, surrogate, n_surrogates, eseed, options=options,
                                      batch_size=batch_size, memory_mb=memory_mb, executor=executor, n_jobs=n_jobs)
-    ep_rows, sm_rows, curves, pos = [], [], {}, 0
-    totals, longests, nulls_t, nulls_l, floors, null_by_key = [], [], [], [], [], {}
+    ep_rows, sm_rows, curves, null_by_key, pos = [], [], {}, {}, 0
     boot_root = tuple(seed.spawn_key) + (EPOCH_STREAM, 1)
     for i, k in enumerate(keys):
         nw = fam.n_windows(k)
-        tot, lon, idx = obs[pos], obs[pos + 1], obs[pos + 2: pos + 2 + nw]
-        psi = fam.psi(pipe.data, k)
-        kblk = n // k.stride
-        lk = detect_epochs(idx, opt.threshold, opt.window_cycles)
-        mb = _min_blocks(opt, k.stride, fs)
-        slow = pipe.data[k.a][0] if design.freqs[k.a] <= design.freqs[k.b] else pipe.data[k.b][0]
-        runs = [(s, e) for s, e in locked_runs(lk) if e - s >= mb]
-        keep = np.zeros(kblk, bool)
-        for j, (s, e) in enumerate(runs, 1):
-            keep[s:e] = True
-            i0, i1 = s * k.stride, e * k.stride
-            zz = np.exp(1j * psi[i0:i1]).mean()
-            ep_rows.append({
-                "recording": recording, "signal_a": k.a, "signal_b": k.b, "ratio": f"{k.p}:{k.q}", "p": k.p,
-                "q": k.q, "epoch": j, "start_s": float(t[i0]), "end_s": float(t[i1 - 1] + 1 / fs),
-                "duration_s": (i1 - i0) / fs, "n_cycles": float((slow[i1 - 1] - slow[i0]) / (2 * np.pi)),
-                "mean_phase": float(np.angle(zz)), "index": float(np.abs(zz)),
-                "p_duration": np.nan, "beyond_chance": pd.NA,
-            })
-        span_s = kblk * k.stride / fs
         rng = np.random.default_rng(np.random.SeedSequence(seed.entropy, spawn_key=boot_root + (i,)))
-        lo, hi = _share_ci(keep, opt.window_cycles, ci_level, n_bootstrap, rng)
-        centre = (np.arange(nw) * k.stride + opt.window_cycles * k.stride / 2) / fs + float(t[0])
-        curve = {"time_s": centre, "index": idx.copy(), "threshold": opt.threshold}
-        row = {
-            "recording": recording, "signal_a": k.a, "signal_b": k.b, "ratio": f"{k.p}:{k.q}", "p": k.p, "q": k.q,
-            "span_s": span_s, "n_epochs": len(runs), "total_locked_s": float(tot), "locked_share": float(tot) / span_s,
-            "share_ci_low": lo, "share_ci_high": hi, "ci_level": float(ci_level) if n_bootstrap else np.nan,
-            "longest_s": float(lon), "tolerance": opt.tolerance, "window_cycles": opt.window_cycles,
-            "min_cycles": opt.min_cycles, "min_s": opt.min_s, "warnings": "",
-        }
+        rows, row, curve = _describe_key(pipe, design, fam, k, obs[pos: pos + 2 + nw], recording, ci_level,
+                                         n_bootstrap, rng)
         if null is not None:
             nt, nl, ni = null[:, pos], null[:, pos + 1], null[:, pos + 2: pos + 2 + nw]
             curve["null_low"], curve["null_high"] = np.quantile(ni, [0.025, 0.975], axis=0)
-            nulls_t.append(nt)
-            nulls_l.append(nl)
             null_by_key[(k.a, k.b, k.p, k.q)] = {"total_s": nt.copy(), "longest_s": nl.copy()}
             row.update(null_mean_s=float(nt.mean()), null_sd_s=float(nt.std(ddof=1)) if nt.size > 1 else np.nan,
                        null_longest_mean_s=float(nl.mean()))
-            for er in ep_rows[len(ep_rows) - len(runs):]:  # this key's epochs against the longest under the null
+            for er in rows:  # this key's epochs against the longest under the null
                 er["p_duration"] = float(inf.surrogate_pvalue(np.array([er["duration_s"]]), nl[:, None])[0])
                 er["beyond_chance"] = er["p_duration"] < alpha
-        totals.append(float(tot))
-        longests.append(float(lon))
-        floors.append(mb * k.stride / fs)
-        curves[(k.a, k.b, k.p, k.q)] = curve
+        ep_rows += rows
         sm_rows.append(row)
+        curves[(k.a, k.b, k.p, k.q)] = curve
         pos += 2 + nw
     summary = pd.DataFrame(sm_rows)
-    m = len(keys)
-    n_pairs = len({(k.a, k.b) for k in keys})
-    family = (f"{m} tests of total locked time: {n_pairs} pair(s) x {m / max(n_pairs, 1):.3g} ratio(s) per pair"
-              + (f" in '{recording}'" if recording else ""))
+    notes = []
     if null is not None:
-        obs_t, nt = np.array(totals), np.stack(nulls_t, axis=1)
-        p = inf.surrogate_pvalue(obs_t, nt)
-        p_long = inf.surrogate_pvalue(np.array(longests), np.stack(nulls_l, axis=1))
-        # the max-statistic's spread floor: one shortest epoch (a fixed per-test scale, so
-        # a null that never locks — spread 0 — cannot hide a locked record)
-        p_adj = np.maximum(inf.adjust(p, correction, observed=obs_t, null=nt, floor=np.array(floors)), p)
-        summary["surrogate"] = surrogate
-        summary["n_surrogates"] = int(nt.shape[0])
-        summary["p_value"], summary["p_longest"], summary["p_adjusted"] = p, p_long, p_adj
-        summary["correction"] = correction
-        summary["family"] = family
-        summary["significant"] = pd.array(p_adj < alpha, dtype="boolean")
-        need = inf.min_surrogates(m, alpha, correction)
-        if nt.shape[0] < need:
-            notes.append(f"epochs: {nt.shape[0]} surrogates are too few for a family of {m} total-locked-time tests "
-                         f"with {correction} at alpha={alpha}; use at least {need}")
-            summary["warnings"] = f"too few surrogates for the family ({nt.shape[0]})"
+        notes += _test_totals(summary, null_by_key, keys, opt, fs=pipe.inputs.fs, correction=correction,
+                              alpha=alpha, surrogate=surrogate, recording=recording)
     else:
         notes.append("epochs: no surrogates drawn, so the epochs are described but not tested")
     summary = _typed(summary, SUMMARY_COLUMNS, {"p": "int64", "q": "int64", "n_epochs": "int64",
@@ -457,6 +381,101 @@ def epochs_from_pipeline(pipe, design, opt: EpochOptions, *, surrogate: str, n_s
     notes.insert(0, f"epochs: psi within a circular SD of {opt.tolerance:.3g} rad (windowed PLV >= {opt.threshold:.3g}) "
                     f"over {opt.window_cycles} cycles, epochs of at least {opt.min_cycles:g} cycles and {opt.min_s:g} s")
     return EpochResult(epochs, summary, curves, null_by_key, opt, tuple(notes))
+
+
+def _epoch_family(pipe, design, opt: EpochOptions):
+    """The (pair, ratio) keys of ``design`` and their EpochFamily; refuses trials, group-only
+    designs and records shorter than one epoch window."""
+    if pipe.inputs.n_trials != 1:
+        raise SyncstatsInputError(
+            f"synchronization epochs need one continuous record, but the inputs hold {pipe.inputs.n_trials} trials; "
+            "analyse trials without epochs, or one trial at a time."
+        )
+    n = pipe.span_n
+    keys = list(dict.fromkeys(_Key(r.a, r.b, r.p, r.q, r.stride) for r in design.rows if r.kind == "pair"))
+    if not keys:
+        raise SyncstatsInputError(
+            "epochs are found for pairs of rhythms, but no pair is tested (the measures are group measures only); "
+            "add a pair measure such as plv, or leave epochs off."
+        )
+    fam = EpochFamily(tuple(keys), opt, pipe.inputs.fs, int(n))
+    short = [k for k in keys if fam.n_windows(k) < 1]
+    if short:
+        k = short[0]
+        raise SyncstatsInputError(
+            f"the pair ({k.a}, {k.b}) has fewer whole cycles ({n // k.stride}) than one epoch window "
+            f"({opt.window_cycles} cycles); record longer or lower the epoch window (window_cycles; --epoch-window on the command line)."
+        )
+    return keys, fam
+
+
+def _describe_key(pipe, design, fam: EpochFamily, k, obs, recording, ci_level, n_bootstrap, rng):
+    """One pair x ratio's epochs (rows), summary row and index curve from its observed
+    statistics ``obs`` = (total, longest, windowed index...)."""
+    fs, n, t, opt = pipe.inputs.fs, pipe.span_n, pipe.time_s, fam.opt
+    tot, lon, idx = obs[0], obs[1], obs[2:]
+    psi = fam.psi(pipe.data, k)
+    kblk = n // k.stride
+    lk = detect_epochs(idx, opt.threshold, opt.window_cycles)
+    mb = _min_blocks(opt, k.stride, fs)
+    slow = pipe.data[k.a][0] if design.freqs[k.a] <= design.freqs[k.b] else pipe.data[k.b][0]
+    runs = [(s, e) for s, e in locked_runs(lk) if e - s >= mb]
+    keep = np.zeros(kblk, bool)
+    rows = []
+    for j, (s, e) in enumerate(runs, 1):
+        keep[s:e] = True
+        i0, i1 = s * k.stride, e * k.stride
+        zz = np.exp(1j * psi[i0:i1]).mean()
+        rows.append({
+            "recording": recording, "signal_a": k.a, "signal_b": k.b, "ratio": f"{k.p}:{k.q}", "p": k.p,
+            "q": k.q, "epoch": j, "start_s": float(t[i0]), "end_s": float(t[i1 - 1] + 1 / fs),
+            "duration_s": (i1 - i0) / fs, "n_cycles": float((slow[i1 - 1] - slow[i0]) / (2 * np.pi)),
+            "mean_phase": float(np.angle(zz)), "index": float(np.abs(zz)),
+            "p_duration": np.nan, "beyond_chance": pd.NA,
+        })
+    span_s = kblk * k.stride / fs
+    lo, hi = _share_ci(keep, opt.window_cycles, ci_level, n_bootstrap, rng)
+    centre = (np.arange(idx.size) * k.stride + opt.window_cycles * k.stride / 2) / fs + float(t[0])
+    curve = {"time_s": centre, "index": idx.copy(), "threshold": opt.threshold}
+    row = {
+        "recording": recording, "signal_a": k.a, "signal_b": k.b, "ratio": f"{k.p}:{k.q}", "p": k.p, "q": k.q,
+        "span_s": span_s, "n_epochs": len(runs), "total_locked_s": float(tot), "locked_share": float(tot) / span_s,
+        "share_ci_low": lo, "share_ci_high": hi, "ci_level": float(ci_level) if n_bootstrap else np.nan,
+        "longest_s": float(lon), "tolerance": opt.tolerance, "window_cycles": opt.window_cycles,
+        "min_cycles": opt.min_cycles, "min_s": opt.min_s, "warnings": "",
+    }
+    return rows, row, curve
+
+
+def _test_totals(summary, null_by_key, keys, opt: EpochOptions, *, fs, correction, alpha, surrogate,
+                 recording) -> list:
+    """Test every key's total locked time against its null (in place on ``summary``:
+    p-values, the family's correction, significance); returns the notes."""
+    m = len(keys)
+    n_pairs = len({(k.a, k.b) for k in keys})
+    family = (f"{m} tests of total locked time: {n_pairs} pair(s) x {m / max(n_pairs, 1):.3g} ratio(s) per pair"
+              + (f" in '{recording}'" if recording else ""))
+    nulls = [null_by_key[(k.a, k.b, k.p, k.q)] for k in keys]
+    obs_t, nt = summary["total_locked_s"].to_numpy(float), np.stack([x["total_s"] for x in nulls], axis=1)
+    p = inf.surrogate_pvalue(obs_t, nt)
+    p_long = inf.surrogate_pvalue(summary["longest_s"].to_numpy(float), np.stack([x["longest_s"] for x in nulls],
+                                                                                  axis=1))
+    # the max-statistic's spread floor: one shortest epoch (a fixed per-test scale, so
+    # a null that never locks — spread 0 — cannot hide a locked record)
+    floors = np.array([_min_blocks(opt, k.stride, fs) * k.stride / fs for k in keys])
+    p_adj = np.maximum(inf.adjust(p, correction, observed=obs_t, null=nt, floor=floors), p)
+    summary["surrogate"] = surrogate
+    summary["n_surrogates"] = int(nt.shape[0])
+    summary["p_value"], summary["p_longest"], summary["p_adjusted"] = p, p_long, p_adj
+    summary["correction"] = correction
+    summary["family"] = family
+    summary["significant"] = pd.array(p_adj < alpha, dtype="boolean")
+    need = inf.min_surrogates(m, alpha, correction)
+    if nt.shape[0] >= need:
+        return []
+    summary["warnings"] = f"too few surrogates for the family ({nt.shape[0]})"
+    return [f"epochs: {nt.shape[0]} surrogates are too few for a family of {m} total-locked-time tests "
+            f"with {correction} at alpha={alpha}; use at least {need}"]
 
 
 def combine_epochs(found) -> EpochResult | None:
