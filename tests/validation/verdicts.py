@@ -1,7 +1,7 @@
 """Validation of what a verdict rests on: the interval, the named ratio, and how much
 power a data-driven null gives up against the exact null of the simulated model.
 
-Three parts, each a table in docs/validation.md (written by ``python -m
+Four parts, each a table in docs/validation.md (written by ``python -m
 tests.validation.study``; this module alone, ``python -m tests.validation.verdicts``,
 re-measures these parts and rewrites ``docs/validation_verdicts.csv``, which the study
 reads back):
@@ -22,6 +22,9 @@ reads back):
   For phase oscillators this is also run weakly coupled (0.4 x the default coupling,
   Adler nu 1.25: dependent but not locked), where powers are below 1 and the comparison
   bites.
+* **shift variants** — on the model phases of those weakly coupled pairs and of
+  independent ones, the shift test over every shift against tests that leave out the
+  shifts near the observed alignment: rejection rates, and power at equal level.
 
 Seeds are fixed; chunks of replicas have their own seeds, so results do not depend on the
 number of workers.
