@@ -534,6 +534,140 @@ def _check_study_options(measure_summary, second_level_correction, repeated_meas
             f"go in the manifest, and the accepted analysis options are {', '.join(sorted(accepted))}.")
 
 
+def _cache_folder(cache_dir) -> Path | None:
+    """The cache folder as an absolute path, created if needed (None without a cache)."""
+    if cache_dir is None:
+        return None
+    cache = Path(os.path.abspath(os.fspath(cache_dir)))
+    if cache.exists() and not cache.is_dir():
+        raise SyncstatsInputError(f"cache folder '{cache}' is a file; give a folder for the cache.")
+    try:
+        cache.mkdir(parents=True, exist_ok=True)
+    except OSError as err:
+        raise SyncstatsInputError(f"cannot create the cache folder '{cache}' ({err.strerror}); "
+                                  f"choose another place.") from None
+    return cache
+
+
+def _plan_jobs(mf, seed, read_options, analyze_options, cache, progress):
+    """One job per manifest row: rows with a missing file fail, cached rows are taken from the
+    cache, the rest are pending. Returns (outs, failures, pending, cache keys)."""
+    outs, pending, failures = {}, [], {}
+    keys = {}
+    for i, row in mf.iterrows():
+        s = _recording_seed(seed, i)
+        job = {"recording": row["recording"], "path": row["path"], "read": _read_options(row, read_options),
+               "analyze": dict(analyze_options), "entropy": s.entropy, "spawn_key": tuple(s.spawn_key)}
+        missing = [p for p in [row["path"]] + list(row["event_paths"].values()) if not Path(p).is_file()]
+        if missing:
+            failures[i] = f"file '{missing[0]}' does not exist; check the 'file' or 'events' column of the manifest."
+            _tell(progress, row["recording"], "failed")
+            continue
+        keys[i] = _cache_key(job) if cache is not None else None
+        hit = _cache_load(cache, keys[i]) if cache is not None else None
+        if hit is not None:
+            outs[i] = hit
+            _tell(progress, row["recording"], "cached")
+        else:
+            pending.append((i, job))
+    return outs, failures, pending, keys
+
+
+def _run_pending(pending, mf, keys, cache, executor, n_jobs, progress, outs, failures) -> int:
+    """Analyse the pending recordings, adding each to ``outs`` (and the cache) or to
+    ``failures``; returns how many were computed."""
+    n_computed = 0
+
+    def done(i, out):
+        nonlocal n_computed
+        if out["ok"]:
+            _cache_store(cache, keys[i], out)
+            outs[i] = out
+            n_computed += 1
+        else:
+            failures[i] = out["reason"]
+        _tell(progress, mf.at[i, "recording"], "computed" if out["ok"] else "failed")
+
+    _run_jobs(pending, executor, n_jobs, done)
+    return n_computed
+
+
+def _check_some_analysed(mf, outs, failures) -> None:
+    """Refuse a study in which no recording could be analysed (naming the first failure)."""
+    if not outs:
+        first = min(failures)
+        raise SyncstatsInputError(
+            f"none of the {len(mf)} recordings could be analysed (first, '{mf.at[first, 'recording']}': "
+            f"{failures[first].rstrip('.')}); fix the files or the manifest and run again.")
+
+
+def _failure_table(mf, failures) -> pd.DataFrame:
+    """One row per failed recording: recording, file, reason."""
+    return pd.DataFrame([{"recording": mf.at[i, "recording"], "file": mf.at[i, "file"], "reason": failures[i]}
+                         for i in sorted(failures)], columns=["recording", "file", "reason"])
+
+
+def _study_diagnostics(mf, outs) -> pd.DataFrame:
+    """The analysed recordings' phase diagnostics, one table with a recording column first."""
+    diags = []
+    for i in sorted(outs):
+        d = outs[i]["diagnostics"].copy()
+        d.insert(0, "recording", mf.at[i, "recording"])
+        diags.append(d)
+    return pd.concat(diags, ignore_index=True) if diags else pd.DataFrame()
+
+
+def _study_params(manifest, mf, outs, failures, seed, cache, *, measure_summary, second_level_correction,
+                  repeated_measures, n_bootstrap_second_level, alpha, ci_level, analyze_options, read_options,
+                  executor, n_computed, n_cached) -> dict:
+    """The study's parameters for the provenance and the report (in their fixed order)."""
+    first_params = outs[min(outs)]["params"]
+    return {
+        "command": "study",
+        "manifest": manifest if not isinstance(manifest, pd.DataFrame) else "(table in memory)",
+        "n_recordings": len(mf),
+        "n_analysed": len(outs),
+        "n_failed": len(failures),
+        "measure_summary": measure_summary,
+        "second_level_correction": second_level_correction,
+        "repeated_measures": repeated_measures,
+        "n_bootstrap_second_level": n_bootstrap_second_level,
+        "alpha": alpha,
+        "ci_level": ci_level,
+        "analyze_options": _canon(analyze_options),
+        "read_options": _canon(read_options or {}),
+        "seed_entropy": str(seed.entropy),
+        "seed_spawn_key": list(seed.spawn_key),
+        "recording_seed_rule": "recording i (manifest row, from 0) uses SeedSequence(entropy, spawn_key + (0, i))",
+        "surrogate": first_params.get("surrogate"),
+        "n_surrogates": first_params.get("n_surrogates"),
+        "measures": first_params.get("measures"),
+        "correction": first_params.get("correction"),
+        "executor": executor if isinstance(executor, str) or executor is None else type(executor).__name__,
+        "cache_dir": None if cache is None else str(cache),
+        "n_computed": n_computed,
+        "n_cached": n_cached,
+        "syncstats_version": _version(),
+    }
+
+
+def _study_notes(mf, outs, failures, measure_summary) -> tuple:
+    """The study's notes: how many recordings were analysed and what the second level tests."""
+    notes = [f"{len(outs)} of {len(mf)} recordings analysed"
+             + (f"; {len(failures)} failed (named below with the reason)" if failures else ""),
+             f"second level on the per-recording '{measure_summary}'"]
+    if measure_summary == "value":
+        notes.append("no one-sample test on the raw value: a locking index is positive even without locking")
+    return tuple(notes)
+
+
+def _study_inputs(manifest, mf, outs) -> tuple:
+    """The input files, once each: the manifest file (if any), then each analysed recording's files."""
+    inputs = ([str(manifest)] if not isinstance(manifest, pd.DataFrame) else []) + [
+        p for i in sorted(outs) for p in [mf.at[i, "path"]] + list(mf.at[i, "event_paths"].values())]
+    return tuple(dict.fromkeys(inputs))
+
+
 def analyze_study(
     manifest,
     *,
@@ -601,54 +735,11 @@ def analyze_study(
     _check_study_options(measure_summary, second_level_correction, repeated_measures, n_jobs, analyze_options)
     mf = read_manifest(manifest, base_dir=base_dir)
     seed = as_seed_sequence(rng)
-    cache = None
-    if cache_dir is not None:
-        cache = Path(os.path.abspath(os.fspath(cache_dir)))
-        if cache.exists() and not cache.is_dir():
-            raise SyncstatsInputError(f"cache folder '{cache}' is a file; give a folder for the cache.")
-        try:
-            cache.mkdir(parents=True, exist_ok=True)
-        except OSError as err:
-            raise SyncstatsInputError(f"cannot create the cache folder '{cache}' ({err.strerror}); "
-                                      f"choose another place.") from None
-    outs, pending, failures = {}, [], {}
-    n_cached = 0
-    keys = {}
-    for i, row in mf.iterrows():
-        s = _recording_seed(seed, i)
-        job = {"recording": row["recording"], "path": row["path"], "read": _read_options(row, read_options),
-               "analyze": dict(analyze_options), "entropy": s.entropy, "spawn_key": tuple(s.spawn_key)}
-        missing = [p for p in [row["path"]] + list(row["event_paths"].values()) if not Path(p).is_file()]
-        if missing:
-            failures[i] = f"file '{missing[0]}' does not exist; check the 'file' or 'events' column of the manifest."
-            _tell(progress, row["recording"], "failed")
-            continue
-        keys[i] = _cache_key(job) if cache is not None else None
-        hit = _cache_load(cache, keys[i]) if cache is not None else None
-        if hit is not None:
-            outs[i] = hit
-            n_cached += 1
-            _tell(progress, row["recording"], "cached")
-        else:
-            pending.append((i, job))
-    n_computed = 0
-
-    def done(i, out):
-        nonlocal n_computed
-        if out["ok"]:
-            _cache_store(cache, keys[i], out)
-            outs[i] = out
-            n_computed += 1
-        else:
-            failures[i] = out["reason"]
-        _tell(progress, mf.at[i, "recording"], "computed" if out["ok"] else "failed")
-
-    _run_jobs(pending, executor, n_jobs, done)
-    if not outs:
-        first = min(failures)
-        raise SyncstatsInputError(
-            f"none of the {len(mf)} recordings could be analysed (first, '{mf.at[first, 'recording']}': "
-            f"{failures[first].rstrip('.')}); fix the files or the manifest and run again.")
+    cache = _cache_folder(cache_dir)
+    outs, failures, pending, keys = _plan_jobs(mf, seed, read_options, analyze_options, cache, progress)
+    n_cached = len(outs)  # so far only recordings taken from the cache
+    n_computed = _run_pending(pending, mf, keys, cache, executor, n_jobs, progress, outs, failures)
+    _check_some_analysed(mf, outs, failures)
     table = _study_table(mf, outs)
     alpha = analyze_options.get("alpha", _analyze_default("alpha"))
     ci_level = analyze_options.get("ci_level", _analyze_default("ci_level"))
@@ -656,52 +747,16 @@ def analyze_study(
         table, summary=measure_summary, correction=second_level_correction, alpha=alpha, ci_level=ci_level,
         n_bootstrap=n_bootstrap_second_level, repeated_measures=repeated_measures,
         rng=np.random.SeedSequence(seed.entropy, spawn_key=tuple(seed.spawn_key) + (1,)))
-    fail = pd.DataFrame([{"recording": mf.at[i, "recording"], "file": mf.at[i, "file"], "reason": failures[i]}
-                         for i in sorted(failures)], columns=["recording", "file", "reason"])
-    diags = []
-    for i in sorted(outs):
-        d = outs[i]["diagnostics"].copy()
-        d.insert(0, "recording", mf.at[i, "recording"])
-        diags.append(d)
-    first_params = outs[min(outs)]["params"]
-    params = {
-        "command": "study",
-        "manifest": manifest if not isinstance(manifest, pd.DataFrame) else "(table in memory)",
-        "n_recordings": len(mf),
-        "n_analysed": len(outs),
-        "n_failed": len(failures),
-        "measure_summary": measure_summary,
-        "second_level_correction": second_level_correction,
-        "repeated_measures": repeated_measures,
-        "n_bootstrap_second_level": n_bootstrap_second_level,
-        "alpha": alpha,
-        "ci_level": ci_level,
-        "analyze_options": _canon(analyze_options),
-        "read_options": _canon(read_options or {}),
-        "seed_entropy": str(seed.entropy),
-        "seed_spawn_key": list(seed.spawn_key),
-        "recording_seed_rule": "recording i (manifest row, from 0) uses SeedSequence(entropy, spawn_key + (0, i))",
-        "surrogate": first_params.get("surrogate"),
-        "n_surrogates": first_params.get("n_surrogates"),
-        "measures": first_params.get("measures"),
-        "correction": first_params.get("correction"),
-        "executor": executor if isinstance(executor, str) or executor is None else type(executor).__name__,
-        "cache_dir": None if cache is None else str(cache),
-        "n_computed": n_computed,
-        "n_cached": n_cached,
-        "syncstats_version": _version(),
-    }
-    notes = [f"{len(outs)} of {len(mf)} recordings analysed"
-             + (f"; {len(failures)} failed (named below with the reason)" if failures else ""),
-             f"second level on the per-recording '{measure_summary}'"]
-    if measure_summary == "value":
-        notes.append("no one-sample test on the raw value: a locking index is positive even without locking")
-    inputs = ([str(manifest)] if not isinstance(manifest, pd.DataFrame) else []) + [
-        p for i in sorted(outs) for p in [mf.at[i, "path"]] + list(mf.at[i, "event_paths"].values())]
+    params = _study_params(
+        manifest, mf, outs, failures, seed, cache, measure_summary=measure_summary,
+        second_level_correction=second_level_correction, repeated_measures=repeated_measures,
+        n_bootstrap_second_level=n_bootstrap_second_level, alpha=alpha, ci_level=ci_level,
+        analyze_options=analyze_options, read_options=read_options, executor=executor,
+        n_computed=n_computed, n_cached=n_cached)
     return StudyResult(
-        table=table, second_level=second, failures=fail, subject_values=subj, descriptives=desc,
-        diagnostics=pd.concat(diags, ignore_index=True) if diags else pd.DataFrame(),
-        manifest=mf, params=params, notes=tuple(notes), inputs=tuple(dict.fromkeys(inputs)),
+        table=table, second_level=second, failures=_failure_table(mf, failures), subject_values=subj,
+        descriptives=desc, diagnostics=_study_diagnostics(mf, outs), manifest=mf, params=params,
+        notes=_study_notes(mf, outs, failures, measure_summary), inputs=_study_inputs(manifest, mf, outs),
         n_computed=n_computed, n_cached=n_cached,
         recording_notes={mf.at[i, "recording"]: tuple(outs[i]["notes"]) for i in sorted(outs)},
         epochs=_combine_epochs([outs[i].get("epochs") for i in sorted(outs)]),

@@ -156,15 +156,13 @@ def _merge_events(src: _Source, extra: dict[str, np.ndarray]) -> dict[str, np.nd
     return events
 
 
-def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: str,
-            min_segment_s: float, extra_events: dict[str, np.ndarray]) -> list[Recording]:
-    """Bring a loaded source to Recordings (one, or one per gap-free segment)."""
-    rec_name = src.name if name is None else str(name)
-    events = _merge_events(src, extra_events)
-    if not src.signals:  # an event list: nothing to put on a grid
-        return [Recording(name=rec_name, signals={}, fs=None, units={},
-                          start_time=src.start_time, events=events, source=str(src.path),
-                          notes=tuple(src.notes))]
+def _common_rate(src: _Source, resample_to: float | None
+                 ) -> tuple[Fraction | None, dict[str, tuple[int, int]], float]:
+    """The output rate: the one shared rate, or ``resample_to`` with each signal's up/down factors.
+
+    Returns (target, factors, fs_out); target is None and factors empty when nothing is
+    resampled (also when every signal is already at ``resample_to``).
+    """
     distinct = sorted(set(src.rates.values()))
     if len(distinct) > 1 and resample_to is None:
         listing = ", ".join(f"{n!r} {_fmt_hz(r)}" for n, r in src.rates.items())
@@ -180,6 +178,11 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
         factors = _resample_factors(src, target)
         if all(f == (1, 1) for f in factors.values()):
             target, factors = None, {}
+    return target, factors, float(target if target is not None else distinct[0])
+
+
+def _check_values(src: _Source) -> None:
+    """Refuse signals with no samples, no finite sample, or values too large to process."""
     if any(len(x) == 0 for x in src.signals.values()):
         empty = [n for n, x in src.signals.items() if len(x) == 0]
         raise SyncstatsInputError(
@@ -200,7 +203,10 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
                 f"large to process without overflow (the limit is {_MAX_MAGNITUDE:.0e} in "
                 "magnitude); rescale the signal, e.g. write it in another unit."
             )
-    g, per_cell, n_cells, good = _cell_layout(src)
+
+
+def _check_cells(src: _Source, g: Fraction, per_cell: dict[str, int], n_cells: int) -> None:
+    """Refuse signals that end before the first step of the common grid (no whole cell)."""
     if n_cells == 0:
         short = [n for n, x in src.signals.items() if len(x) < per_cell[n]]
         raise SyncstatsInputError(
@@ -208,59 +214,77 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
             f"before the first step of the signals' common time grid ({float(1 / g):.6g} s); "
             "leave them out with signals=[...]."
         )
-    segs, blocks = _segments(src, g, n_cells, good)
-    whole = len(segs) == 1 and segs[0][:2] == (0, n_cells)
-    notes = list(src.notes)
+
+
+def _length_notes(src: _Source, g: Fraction) -> list[str]:
+    """A note when the signals end at different times (all are cut to the shortest)."""
     lengths = {n: len(x) / float(src.rates[n]) for n, x in src.signals.items()}
     if max(lengths.values()) - min(lengths.values()) > 1.0 / float(g):
-        notes.append(
-            f"signals end at different times; all were cut to the shortest "
-            f"({min(lengths.values()):.6g} s)"
-        )
-    if not whole and gaps == "error":
-        raise _gap_error(src, g, blocks, segs)
-    if target is not None:
-        notes.append(
-            "resampled " + ", ".join(f"{n!r} ({_fmt_hz(r)})" for n, r in src.rates.items())
-            + f" to {_fmt_hz(target)} with scipy.signal.resample_poly (polyphase, "
-            "linear-phase FIR anti-alias filter with its delay removed, Kaiser window "
-            "beta=5, mean-value padding at the ends)"
-        )
-    fs_out = float(target if target is not None else distinct[0])
-    kept = segs
-    if not whole:
-        kept = [s for s in segs if float(Fraction(s[1] - s[0]) / g) >= min_segment_s]
-        dropped = [s for s in segs if s not in kept]
-        if dropped:
-            spans = "; ".join(
-                f"{s[2]:.6g}-{s[2] + float(Fraction(s[1] - s[0]) / g):.6g} s" for s in dropped[:10]
-            ) + ("; ..." if len(dropped) > 10 else "")
-            notes.append(
-                f"dropped {len(dropped)} gap-free piece(s) shorter than the minimum segment "
-                f"length of {min_segment_s:g} s: {spans}"
-            )
-        if not kept:
-            longest = max(float(Fraction(s[1] - s[0]) / g) for s in segs) if segs else 0.0
-            raise SyncstatsInputError(
-                f"{src.kind} file '{src.path}' has no gap-free piece as long as the minimum "
-                f"segment length of {min_segment_s:g} s (the longest is {longest:.6g} s); "
-                "lower the minimum segment length or repair the gaps."
-            )
-    pieces = []
-    for a, b, onset in kept:
-        sigs = {}
-        for n, x in src.signals.items():
-            m = per_cell[n]
-            piece = x[a * m: b * m]
-            if target is not None and factors[n] != (1, 1):
-                from scipy.signal import resample_poly
+        return [f"signals end at different times; all were cut to the shortest "
+                f"({min(lengths.values()):.6g} s)"]
+    return []
 
-                up, down = factors[n]
-                piece = resample_poly(piece, up, down, padtype="mean")
-            sigs[n] = np.array(piece, dtype=float)
-        n_out = min(len(v) for v in sigs.values())
-        pieces.append(({n: v[:n_out] for n, v in sigs.items()}, onset, n_out / fs_out))
-    notes += _outside_notes(events, [(onset, dur) for _, onset, dur in pieces])
+
+def _resample_notes(src: _Source, target: Fraction | None) -> list[str]:
+    """A note naming the resampling and its filter ([] when nothing was resampled)."""
+    if target is None:
+        return []
+    return [
+        "resampled " + ", ".join(f"{n!r} ({_fmt_hz(r)})" for n, r in src.rates.items())
+        + f" to {_fmt_hz(target)} with scipy.signal.resample_poly (polyphase, "
+        "linear-phase FIR anti-alias filter with its delay removed, Kaiser window "
+        "beta=5, mean-value padding at the ends)"
+    ]
+
+
+def _long_segments(src: _Source, segs, g: Fraction, min_segment_s: float
+                   ) -> tuple[list[tuple[int, int, float]], list[str]]:
+    """The gap-free pieces at least ``min_segment_s`` long, and a note on those dropped.
+
+    Refuses a file none of whose pieces is long enough.
+    """
+    kept = [s for s in segs if float(Fraction(s[1] - s[0]) / g) >= min_segment_s]
+    dropped = [s for s in segs if s not in kept]
+    notes = []
+    if dropped:
+        spans = "; ".join(
+            f"{s[2]:.6g}-{s[2] + float(Fraction(s[1] - s[0]) / g):.6g} s" for s in dropped[:10]
+        ) + ("; ..." if len(dropped) > 10 else "")
+        notes.append(
+            f"dropped {len(dropped)} gap-free piece(s) shorter than the minimum segment "
+            f"length of {min_segment_s:g} s: {spans}"
+        )
+    if not kept:
+        longest = max(float(Fraction(s[1] - s[0]) / g) for s in segs) if segs else 0.0
+        raise SyncstatsInputError(
+            f"{src.kind} file '{src.path}' has no gap-free piece as long as the minimum "
+            f"segment length of {min_segment_s:g} s (the longest is {longest:.6g} s); "
+            "lower the minimum segment length or repair the gaps."
+        )
+    return kept, notes
+
+
+def _piece_signals(src: _Source, a: int, b: int, per_cell: dict[str, int],
+                   factors: dict[str, tuple[int, int]]) -> dict[str, np.ndarray]:
+    """Cells a..b of every signal, resampled where a factor says so, cut to equal length."""
+    sigs = {}
+    for n, x in src.signals.items():
+        m = per_cell[n]
+        piece = x[a * m: b * m]
+        if factors and factors[n] != (1, 1):
+            from scipy.signal import resample_poly
+
+            up, down = factors[n]
+            piece = resample_poly(piece, up, down, padtype="mean")
+        sigs[n] = np.array(piece, dtype=float)
+    n_out = min(len(v) for v in sigs.values())
+    return {n: v[:n_out] for n, v in sigs.items()}
+
+
+def _segment_recordings(src: _Source, pieces, *, rec_name: str, whole: bool, fs_out: float,
+                        events: dict[str, np.ndarray], notes: list[str]) -> list[Recording]:
+    """One Recording per piece (signals, onset s, duration s): named ``<name>#k`` with its
+    own start time, events and a note on where it lies, or the record itself when whole."""
     out = []
     for i, (sigs, onset, dur) in enumerate(pieces, start=1):
         seg_notes = list(notes)
@@ -269,7 +293,7 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
         else:
             seg_name = f"{rec_name}#{i}"
             seg_notes.append(
-                f"segment {i} of {len(kept)}: {onset:.6g}-{onset + dur:.6g} s of the file, "
+                f"segment {i} of {len(pieces)}: {onset:.6g}-{onset + dur:.6g} s of the file, "
                 "a gap-free piece (gaps are never interpolated)"
             )
             seg_start = _shift_iso(src.start_time, onset)
@@ -281,6 +305,38 @@ def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: 
             notes=tuple(seg_notes), offset_s=0.0 if whole else float(onset),
         ))
     return out
+
+
+def _finish(src: _Source, *, name: str | None, resample_to: float | None, gaps: str,
+            min_segment_s: float, extra_events: dict[str, np.ndarray]) -> list[Recording]:
+    """Bring a loaded source to Recordings (one, or one per gap-free segment)."""
+    rec_name = src.name if name is None else str(name)
+    events = _merge_events(src, extra_events)
+    if not src.signals:  # an event list: nothing to put on a grid
+        return [Recording(name=rec_name, signals={}, fs=None, units={},
+                          start_time=src.start_time, events=events, source=str(src.path),
+                          notes=tuple(src.notes))]
+    target, factors, fs_out = _common_rate(src, resample_to)
+    _check_values(src)
+    g, per_cell, n_cells, good = _cell_layout(src)
+    _check_cells(src, g, per_cell, n_cells)
+    segs, blocks = _segments(src, g, n_cells, good)
+    whole = len(segs) == 1 and segs[0][:2] == (0, n_cells)
+    notes = list(src.notes) + _length_notes(src, g)
+    if not whole and gaps == "error":
+        raise _gap_error(src, g, blocks, segs)
+    notes += _resample_notes(src, target)
+    kept = segs
+    if not whole:
+        kept, dropped_notes = _long_segments(src, segs, g, min_segment_s)
+        notes += dropped_notes
+    pieces = []
+    for a, b, onset in kept:
+        sigs = _piece_signals(src, a, b, per_cell, factors)
+        pieces.append((sigs, onset, len(next(iter(sigs.values()))) / fs_out))
+    notes += _outside_notes(events, [(onset, dur) for _, onset, dur in pieces])
+    return _segment_recordings(src, pieces, rec_name=rec_name, whole=whole, fs_out=fs_out,
+                               events=events, notes=notes)
 
 
 def _outside_notes(events: dict[str, np.ndarray], spans: list[tuple[float, float]]) -> list[str]:

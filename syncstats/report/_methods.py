@@ -226,51 +226,48 @@ def _example_pair(table: pd.DataFrame):
             _label(row["ratio"]))
 
 
-def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
-    """The methods section (Markdown) for ``result``.
-
-    One paragraph naming every method, parameter and count used, the ratio convention in
-    words, the run's notes (``notes=True``), the caution (``caution=True``) and the
-    numbered references (only those cited in the paragraph).
-    """
-    params = dict(result.params or {})
-    table = result.table
-    cite = _Cites()
-    para: list[str] = []
-
-    n_signals = 0
+def _signal_count(params: dict, table) -> int:
+    """Number of signals analysed: from the recorded kinds, else from the table's pairs."""
     kinds = params.get("kinds") if isinstance(params.get("kinds"), dict) else None
     if kinds:
-        n_signals = len(kinds)
-    elif table is not None and not table.empty:
+        return len(kinds)
+    if table is not None and not table.empty:
         pairs = table[table["signal_b"] != ""]  # group rows name the group, not a signal
-        n_signals = len(set(pairs["signal_a"]) | set(pairs["signal_b"]))
-    fs = params.get("fs")
+        return len(set(pairs["signal_a"]) | set(pairs["signal_b"]))
+    return 0
+
+
+def _heading_sentence(params: dict, table) -> str:
+    """The opening sentence: the program, its version, the signals and their rate."""
     head = "Phase synchronization was assessed with syncstats"
     ver = params.get("syncstats_version")
     if ver:
         head += f" (version {ver})"
     bits = []
+    n_signals = _signal_count(params, table)
     if n_signals:
         bits.append(f"{n_signals} signals")
+    fs = params.get("fs")
     if fs:
         bits.append(f"sampled at {float(fs):g} Hz")
-    para.append(head + (f" on {' '.join(bits)}" if bits else "") + ".")
+    return head + (f" on {' '.join(bits)}" if bits else "") + "."
 
-    ph = _phase_sentence(params, result.diagnostics, cite)
-    if ph:
-        para.append(ph)
 
+def _ratio_sentence(params: dict, table, cite: _Cites) -> str:
+    """The generalized phase difference and the ratios it was formed at ("" without ratios)."""
     ratios = _ratio_list(table, params)
-    if ratios:
-        nm = any(r != "1:1" for r in ratios)
-        s = (f"For each pair the generalized phase difference ψ = q·φ_A − p·φ_B was formed at "
-             f"the ratio{'s' if len(ratios) > 1 else ''} {_join(ratios)}")
-        if params.get("ratios") == "auto":
-            s += " (chosen from the signals' dominant frequencies)"
-        s += (cite(["tass1998"]) if nm else "") + "."
-        para.append(s)
+    if not ratios:
+        return ""
+    nm = any(r != "1:1" for r in ratios)
+    s = (f"For each pair the generalized phase difference ψ = q·φ_A − p·φ_B was formed at "
+         f"the ratio{'s' if len(ratios) > 1 else ''} {_join(ratios)}")
+    if params.get("ratios") == "auto":
+        s += " (chosen from the signals' dominant frequencies)"
+    return s + (cite(["tass1998"]) if nm else "") + "."
 
+
+def _measures_sentence(params: dict, table, cite: _Cites) -> str:
+    """The locking measures, described and cited from their registry ("" without any)."""
     measures = [str(m) for m in _as_list(params.get("measures"))]
     if table is not None and not table.empty:
         measures += [m for m in dict.fromkeys(table["measure"]) if m not in measures]
@@ -278,100 +275,121 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     for m in measures:
         entry = MEASURE_METHODS.get(m)
         mtxt.append(entry.description + cite(entry.citations) if entry else f"the measure '{_label(m)}'")
-    if mtxt:
-        para.append(f"Locking was quantified by {_join(mtxt)}.")
+    return f"Locking was quantified by {_join(mtxt)}." if mtxt else ""
 
+
+def _windows_sentence(params: dict, table) -> str:
+    """The time windows, each a separate test ("" when the whole record was one window)."""
     wtxt = _windows_text(params.get("windows"), table)
-    if wtxt:
-        para.append(f"To follow locking over time, every measure was computed {wtxt}, and every "
-                    "window counted as a separate test.")
+    if not wtxt:
+        return ""
+    return (f"To follow locking over time, every measure was computed {wtxt}, and every "
+            "window counted as a separate test.")
 
-    n_sur = int(params.get("n_surrogates") or 0)
+
+def _surrogate_sentence(params: dict, n_sur: int, cite: _Cites) -> str:
+    """How many surrogates of which kind, and the null hypothesis they stand for."""
     sur = str(params.get("surrogate") or "")
-    if n_sur > 0:
-        entry = SURROGATE_METHODS.get(sur)
-        text = entry.description + cite(entry.citations) if entry else f"'{_label(sur)}' surrogates"
-        per_signal = entry is not None and entry.acts_on == "signal"
-        s = (f"Significance was tested against {n_sur} {text}"
-             + (", generated independently for each signal." if per_signal else ".")
-             + (f" Null hypothesis: {entry.null_hypothesis}" if entry else ""))
-        para.append(s)
-        nl = str(params.get("null_level") or "")
-        kinds = params.get("kinds") or {}
-        if nl == "phase" and kinds and "phase" not in set(kinds.values()):
-            # phases computed by syncstats itself: a shift or re-pairing commutes with it
-            para.append("Surrogates were made from the phases computed above; a time shift or a "
-                        "re-pairing of trials commutes with the zero-phase filter away from the "
-                        "record ends, which were discarded, so the filtering is the same for data "
-                        "and surrogates.")
-        elif nl in _NULL_LEVEL_TEXT:
-            para.append(_NULL_LEVEL_TEXT[nl])
-        para.append("The p-value of each test was (1 + k)/(1 + S), where k is the number of the "
-                    "S surrogates whose value reached the observed one, so p is never zero"
-                    + cite(["phipson2010"]) + ". For each row the surrogate mean (the bias "
-                    "expected without coupling), the debiased effect (value − surrogate mean) and "
-                    "z = effect / surrogate standard deviation are reported.")
-        corr = str(params.get("correction") or "none")
-        alpha = params.get("alpha")
-        fam = ""
-        if table is not None and not table.empty:
-            fams = [_label(f) for f in dict.fromkeys(table["family"].astype(str)) if f]
-            if fams:
-                fam = f" The family corrected for was: {'; '.join(fams)}."
-        if corr in ("none", ""):
-            para.append("No correction for multiple testing was applied; the p-values are "
-                        "per test." + fam)
-        else:
-            entry = CORRECTION_METHODS.get(corr)
-            text = entry.description + cite(entry.citations) if entry else f"the '{_label(corr)}' correction"
-            para.append(f"Every ratio, pair and window searched was corrected for together with "
-                        f"{text}.{fam}")
-        if alpha is not None:
-            para.append(f"A result was called significant when its corrected p-value was below "
-                        f"α = {float(alpha):g}. Significance rejects independence only; a row was "
-                        "called locked when, in addition, its ratio had the largest debiased effect "
-                        "of its pair and window (the ratio certainty is the share of cycle-block "
-                        "bootstrap resamples in which it stayed the largest), its value exceeded "
-                        "the Rayleigh critical value for its number of cycles (more concentration "
-                        "than chance over that many independent cycles), and the phase difference "
-                        "made at most one net turn in four cycles of the slower rhythm (frequency "
-                        "entrainment; a ratio at which ψ keeps turning can show dependence, "
-                        "not a lock).")
-    else:
-        para.append("No surrogates were drawn (n_surrogates = 0), so no significance test was "
-                    "made: the values are descriptive only.")
-    if two := _two_state_sentence(table):
-        para.append(two)
+    entry = SURROGATE_METHODS.get(sur)
+    text = entry.description + cite(entry.citations) if entry else f"'{_label(sur)}' surrogates"
+    per_signal = entry is not None and entry.acts_on == "signal"
+    return (f"Significance was tested against {n_sur} {text}"
+            + (", generated independently for each signal." if per_signal else ".")
+            + (f" Null hypothesis: {entry.null_hypothesis}" if entry else ""))
 
+
+def _null_level_sentence(params: dict) -> str:
+    """At which level (raw signal, phase, event) the surrogates were made ("" if unknown)."""
+    nl = str(params.get("null_level") or "")
+    kinds = params.get("kinds") or {}
+    if nl == "phase" and kinds and "phase" not in set(kinds.values()):
+        # phases computed by syncstats itself: a shift or re-pairing commutes with it
+        return ("Surrogates were made from the phases computed above; a time shift or a "
+                "re-pairing of trials commutes with the zero-phase filter away from the "
+                "record ends, which were discarded, so the filtering is the same for data "
+                "and surrogates.")
+    return _NULL_LEVEL_TEXT.get(nl, "")
+
+
+def _pvalue_sentence(cite: _Cites) -> str:
+    """The surrogate p-value and the bias, effect and z columns reported with it."""
+    return ("The p-value of each test was (1 + k)/(1 + S), where k is the number of the "
+            "S surrogates whose value reached the observed one, so p is never zero"
+            + cite(["phipson2010"]) + ". For each row the surrogate mean (the bias "
+            "expected without coupling), the debiased effect (value − surrogate mean) and "
+            "z = effect / surrogate standard deviation are reported.")
+
+
+def _correction_sentence(params: dict, table, cite: _Cites) -> str:
+    """The multiple-testing correction (or its absence) and the families corrected for."""
+    corr = str(params.get("correction") or "none")
+    fam = ""
+    if table is not None and not table.empty:
+        fams = [_label(f) for f in dict.fromkeys(table["family"].astype(str)) if f]
+        if fams:
+            fam = f" The family corrected for was: {'; '.join(fams)}."
+    if corr in ("none", ""):
+        return "No correction for multiple testing was applied; the p-values are per test." + fam
+    entry = CORRECTION_METHODS.get(corr)
+    text = entry.description + cite(entry.citations) if entry else f"the '{_label(corr)}' correction"
+    return f"Every ratio, pair and window searched was corrected for together with {text}.{fam}"
+
+
+def _decision_sentence(params: dict) -> str:
+    """When a row was called significant and when locked ("" without a level α)."""
+    alpha = params.get("alpha")
+    if alpha is None:
+        return ""
+    return (f"A result was called significant when its corrected p-value was below "
+            f"α = {float(alpha):g}. Significance rejects independence only; a row was "
+            "called locked when, in addition, its ratio had the largest debiased effect "
+            "of its pair and window (the ratio certainty is the share of cycle-block "
+            "bootstrap resamples in which it stayed the largest), its value exceeded "
+            "the Rayleigh critical value for its number of cycles (more concentration "
+            "than chance over that many independent cycles), and the phase difference "
+            "made at most one net turn in four cycles of the slower rhythm (frequency "
+            "entrainment; a ratio at which ψ keeps turning can show dependence, "
+            "not a lock).")
+
+
+def _test_sentences(params: dict, table, cite: _Cites) -> list[str]:
+    """The significance test: surrogates, null level, p-values, correction, decision rule."""
+    n_sur = int(params.get("n_surrogates") or 0)
+    if n_sur <= 0:
+        return ["No surrogates were drawn (n_surrogates = 0), so no significance test was "
+                "made: the values are descriptive only."]
+    return [_surrogate_sentence(params, n_sur, cite), _null_level_sentence(params),
+            _pvalue_sentence(cite), _correction_sentence(params, table, cite),
+            _decision_sentence(params)]
+
+
+def _null_comparison_sentence(result) -> str:
+    """The other nulls the same data were tested against ("" without a test or a comparison)."""
     from ._compare import methods_sentence
 
-    if n_sur > 0 and methods_sentence(result):
-        para.append(methods_sentence(result))
+    return methods_sentence(result) if int((result.params or {}).get("n_surrogates") or 0) > 0 else ""
 
-    ci = _ci_sentence(params, table, cite)
-    if ci:
-        para.append(ci)
 
-    ep = epochs_methods(result, cite)
-    if ep:
-        para.append(ep)
-
+def _seed_sentence(params: dict) -> str:
+    """The seed that makes every random draw repeatable ("" when none was recorded)."""
     seed = params.get("seed_entropy")
-    if seed is not None:
-        para.append(f"All random draws came from one seeded generator (seed entropy {seed}), so "
-                    "the analysis can be repeated exactly.")
+    if seed is None:
+        return ""
+    return (f"All random draws came from one seeded generator (seed entropy {seed}), so "
+            "the analysis can be repeated exactly.")
 
-    from . import _clusters, _trials
 
-    para += _trials.methods_sentences(result, cite) + _clusters.methods_sentences(result, cite)
+def _synchrogram_sentence(result, cite: _Cites) -> str:
+    """The synchrograms shown for event data ("" without events)."""
+    if not result.events:
+        return ""
+    return ("Synchrograms (the phase of the slower rhythm at each event of the faster "
+            "one) are shown for event data" + cite(["schafer1998", "schafer1999"]) + ".")
 
-    if result.events:
-        para.append("Synchrograms (the phase of the slower rhythm at each event of the faster "
-                    "one) are shown for event data" + cite(["schafer1998", "schafer1999"]) + ".")
 
-    lines = ["# Methods", "", " ".join(para), ""]
-
-    lines += ["## Ratio convention", ""]
+def _convention_lines(table) -> list[str]:
+    """The 'Ratio convention' section, with an example pair from the table when there is one."""
+    lines = ["## Ratio convention", ""]
     lines.append("A ratio p:q means that signal A completes p cycles while signal B completes "
                  "q cycles (the frequency of A is about p/q times that of B), and the phase "
                  "difference tested is ψ = q·φ_A − p·φ_B, which stays bounded when the two are "
@@ -380,21 +398,56 @@ def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
     if ex:
         a, b, p, q, r = ex
         lines.append(f"For example, {r} for the pair ({a}, {b}) means that {ratio_words(a, b, p, q)}.")
-    lines.append("")
+    return lines + [""]
 
-    run_notes = [str(n) for n in (result.notes or []) if str(n).strip()] if notes else []
-    if run_notes:
-        lines += ["## Notes from the run", ""]
-        lines += [f"- {_label(n)}" for n in run_notes]
-        lines.append("")
 
-    if caution:
-        lines += ["## Caution", "", CAUTION, ""]
+def _notes_lines(result) -> list[str]:
+    """The 'Notes from the run' section ([] when the run left no notes)."""
+    run_notes = [str(n) for n in (result.notes or []) if str(n).strip()]
+    if not run_notes:
+        return []
+    return ["## Notes from the run", ""] + [f"- {_label(n)}" for n in run_notes] + [""]
 
-    if cite.keys:
-        lines += ["## References", ""]
-        lines += [f"{i}. {REFERENCES.get(k, k)}" for i, k in enumerate(cite.keys, 1)]
-        lines.append("")
+
+def _reference_lines(cite: _Cites) -> list[str]:
+    """The numbered 'References' section, in order of first citation ([] when none)."""
+    if not cite.keys:
+        return []
+    return (["## References", ""]
+            + [f"{i}. {REFERENCES.get(k, k)}" for i, k in enumerate(cite.keys, 1)] + [""])
+
+
+def methods_text(result, *, notes: bool = True, caution: bool = True) -> str:
+    """The methods section (Markdown) for ``result``.
+
+    One paragraph naming every method, parameter and count used, the ratio convention in
+    words, the run's notes (``notes=True``), the caution (``caution=True``) and the
+    numbered references (only those cited in the paragraph).
+    """
+    from . import _clusters, _trials
+
+    params = dict(result.params or {})
+    table = result.table
+    cite = _Cites()  # sentences are built in reading order: citation numbers follow it
+    para = [_heading_sentence(params, table),
+            _phase_sentence(params, result.diagnostics, cite),
+            _ratio_sentence(params, table, cite),
+            _measures_sentence(params, table, cite),
+            _windows_sentence(params, table),
+            *_test_sentences(params, table, cite),
+            _two_state_sentence(table),
+            _null_comparison_sentence(result),
+            _ci_sentence(params, table, cite),
+            epochs_methods(result, cite),
+            _seed_sentence(params),
+            *_trials.methods_sentences(result, cite),
+            *_clusters.methods_sentences(result, cite),
+            _synchrogram_sentence(result, cite)]
+    lines = ["# Methods", "", " ".join(s for s in para if s), ""]
+    lines += _convention_lines(table)
+    lines += _notes_lines(result) if notes else []
+    lines += ["## Caution", "", CAUTION, ""] if caution else []
+    lines += _reference_lines(cite)
     return "\n".join(lines)
 
 
