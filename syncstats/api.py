@@ -184,7 +184,8 @@ def analyze(
         Cluster-forming level: pointwise (1 − level) quantile of the pooled curves.
     clusters : bool, default False
         Also run the synchronization cluster analysis of the whole group (at least three
-        rhythms; :func:`syncstats.clusters.group_clusters`) with the run's surrogate; result
+        rhythms; :func:`syncstats.clusters.group_clusters`) with the run's surrogate (time_shift
+        in place of fourier, aaft or iaaft, with which the cluster test exceeds its level); result
         in ``.clusters``, saved as clusters.csv, cluster_components.csv and order_parameter.csv.
 
     Returns
@@ -291,10 +292,12 @@ def _extras(pipe, design, opt, options, executor, recording, *, trial_locking, s
         out["trial_locking"] = trial_locking_on(pipe, design.ratios, stimulus_s=stimulus_s,
                                                 correction=trial_correction, threshold=trial_threshold, **run)
     if check_bool(clusters, "clusters"):
-        from .clusters import clusters_on
+        from .clusters import cluster_null, clusters_on, with_notes
 
-        out["clusters"] = clusters_on(pipe, surrogate=opt.surrogate, options=options, stride=design.slowest_stride,
-                                      **run)
+        method, copts, cnotes = cluster_null(opt.surrogate, pipe, design, opt.n_surrogates,
+                                             min_shift_s=opt.min_shift_s, options=options)
+        out["clusters"] = with_notes(clusters_on(pipe, surrogate=method, options=copts,
+                                                 stride=design.slowest_stride, **run), cnotes)
     return out
 
 

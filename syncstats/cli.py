@@ -233,7 +233,8 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
     opt("--trial-threshold", f"with --stimuli and cluster correction: pointwise level that forms stretches (default "
         f"{_default('trial_threshold')})", dest="trial_threshold")
     opt("--clusters", "also find synchronization clusters among three or more rhythms, with the same surrogates "
-        "(writes clusters.csv, cluster_components.csv and order_parameter.csv)", action="store_const", const=True)
+        "(time_shift in place of fourier, aaft or iaaft; writes clusters.csv, cluster_components.csv and "
+        "order_parameter.csv)", action="store_const", const=True)
     opt("--config", "TOML file with any of these options (command-line options win)")
     opt("--out", "output folder (must not exist or be empty)", required=True)
     opt("--overwrite", "replace an existing output folder", action="store_true")

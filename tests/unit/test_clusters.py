@@ -140,3 +140,27 @@ def test_combining_recordings_names_whose_clusters_are_kept():
     assert res.clusters is runs[1].clusters
     assert any("clusters: shown and saved for 'long' only" in n for n in res.notes), res.notes
     assert not any("trial locking" in n for n in res.notes)
+
+
+def test_phase_randomising_nulls_are_replaced_by_the_time_shift_in_the_cluster_test():
+    # With iaaft the cluster test rejected independent rhythms too often (0.157 at alpha 0.05,
+    # R = 300; DEVELOPERS.md), so the cluster test runs fourier / aaft / iaaft as time_shift
+    # and says so; the pair rows of analyze keep the run's surrogate.
+    sig = two_clusters(duration=60.0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", SyncstatsWarning)
+        asked = group_clusters(sig, fs=20, surrogate="iaaft", n_surrogates=19, rng=4)
+        shift = group_clusters(sig, fs=20, surrogate="time_shift", n_surrogates=19, rng=4)
+        res = syncstats.analyze(sig, fs=20, pairs=[("r0", "r1")], surrogate="iaaft", n_surrogates=19, n_bootstrap=0,
+                                rng=4, clusters=True)
+    pd.testing.assert_frame_equal(asked.components, shift.components)
+    assert set(asked.components["surrogate"]) == {"time_shift"}
+    assert "instead of iaaft" in asked.notes[0]
+    assert not any("instead of" in n for n in shift.notes)
+    pd.testing.assert_frame_equal(res.clusters.components, shift.components)
+    assert "instead of iaaft" in res.clusters.notes[0]
+    assert set(res.table["surrogate"]) == {"iaaft"}
+    # a null with another hypothesis (linear dependence kept) is run as asked, with its caution
+    mv = group_clusters(sig, fs=20, surrogate="multivariate_fourier", n_surrogates=19, rng=4)
+    assert set(mv.components["surrogate"]) == {"multivariate_fourier"}
+    assert any("not calibrated" in n for n in mv.notes)
