@@ -9,14 +9,13 @@ of the searched family -> the null distribution -> the family test -> intervals
 from __future__ import annotations
 
 import datetime as _dt
-import warnings
 from dataclasses import replace
 
 import numpy as np
 import pandas as pd
 
 from . import inference as inf
-from ._errors import SyncstatsInputError, SyncstatsWarning
+from ._errors import SyncstatsInputError, warn
 from ._inputs import collect_inputs
 from ._options import check_options
 from .epochs import check_epoch_options, combine_epochs, run_epochs
@@ -255,7 +254,7 @@ def analyze(
     )
     shift_warn = [plan.row_warning(i) for i in range(len(design.rows))] if plan is not None else []
     for w in dict.fromkeys(sum(method_warn.values(), []) + [w for w in shift_warn if w]):
-        warnings.warn(w, SyncstatsWarning, stacklevel=2)
+        warn(w, stacklevel=2)
     diag_frame = _diagnostics_frame(diags, pipe.inputs, rhythm_diagnostics(pipe))
     lead = [f"null: {opt.surrogate} {LEVEL_NOTES[level]}"] if null is not None else [
         "no surrogates drawn: measures only, no test"]

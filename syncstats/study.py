@@ -37,12 +37,14 @@ Research software, not a medical device.
 from __future__ import annotations
 
 import concurrent.futures as cf
+import contextlib
 import hashlib
 import inspect
 import json
 import math
 import os
 import pickle
+import threading
 import uuid
 import warnings
 from dataclasses import dataclass, field
@@ -51,7 +53,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ._errors import SyncstatsInputError, SyncstatsWarning
+from ._errors import SyncstatsInputError, collect_warnings
 from ._rng import as_seed_sequence
 
 __all__ = [
@@ -329,15 +331,19 @@ def _analyze_one(job: dict) -> dict:
     from .api import analyze
     from .io import read_recording
 
+    # the recording's notes come from a collection kept per thread: warnings.catch_warnings
+    # swaps process-wide state, so threads of one process (a threaded Dask worker) mixed
+    # each other's notes; it only silences other warnings, in the main thread
+    main = threading.current_thread() is threading.main_thread()
     try:
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always", SyncstatsWarning)
+        with warnings.catch_warnings() if main else contextlib.nullcontext(), collect_warnings() as caught:
+            if main:
+                warnings.simplefilter("ignore")
             rec = read_recording(job["path"], name=job["recording"], **job["read"])
             res = analyze(rec, fs=rec.fs, recording=job["recording"],
                           rng=np.random.SeedSequence(job["entropy"], spawn_key=tuple(job["spawn_key"])),
                           **job["analyze"])
-        notes = list(dict.fromkeys(str(w.message) for w in caught if issubclass(w.category, SyncstatsWarning)))
-        notes += [n for n in rec.notes]
+        notes = list(dict.fromkeys(caught)) + list(rec.notes)
         return {"ok": True, "table": res.table, "diagnostics": res.diagnostics, "notes": notes,
                 "params": res.params, "epochs": res.epochs}
     except SyncstatsInputError as err:

@@ -1,14 +1,13 @@
 """Twin surrogates: new trajectories of the same system, built from recurrence twins."""
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass
 
 import numpy as np
 import scipy.fft as sfft
 from scipy.spatial.distance import pdist, squareform
 
-from .._errors import SyncstatsInputError, SyncstatsWarning
+from .._errors import SyncstatsInputError, warn
 from ._validation import _as_channels, _check_float, _check_int, _check_rngs
 
 __all__ = ["twin"]
@@ -221,10 +220,9 @@ def twin(
     ]
     for ch, st in enumerate(structs):
         if st.twin_share < _MIN_TWIN_SHARE:
-            warnings.warn(
+            warn(
                 f"twin(): only {100 * st.twin_share:.1f} % of the {st.n_states} states of channel {ch} have a twin, so "
                 "its surrogates are close to circular shifts; lower max_points or embedding_dim, or use another null.",
-                SyncstatsWarning,
                 stacklevel=2,
             )
     n_steps = [-(-n // st.step) for st in structs]

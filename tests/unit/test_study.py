@@ -45,6 +45,11 @@ def test_identical_serial_processes_and_dask(demo, serial):
         dk = analyze_study(demo, executor=client, **OPTS)
     pd.testing.assert_frame_equal(dk.table, serial.table, check_exact=True)
     pd.testing.assert_frame_equal(dk.second_level, serial.second_level, check_exact=True)
+    # each recording keeps its own notes, also when recordings run in threads of one process
+    # (warnings.catch_warnings is process-wide: threads used to swap each other's notes)
+    assert len({n for notes in serial.recording_notes.values() for n in notes}) > len(serial.recording_notes)
+    assert proc.recording_notes == serial.recording_notes
+    assert dk.recording_notes == serial.recording_notes
 
 
 def test_recording_seed_depends_on_the_row_not_the_order(demo, serial):
