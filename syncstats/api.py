@@ -385,6 +385,11 @@ def _params(opt, inputs, pipe, design, options, level, ratios_requested, started
         "n_trials": inputs.n_trials,
         "min_shift_s": options["min_shift"] / fs if "min_shift" in options else None,
         "all_shifts": None if plan is None else plan.exact,
+        # the range over rows of how far apart two shifts must be to give unrelated values
+        # (correlation length of the shift curve, s) and of the effectively independent shifts
+        "shift_correlation_s": None if plan is None else [float(plan.corr_len.min() / fs),
+                                                          float(plan.corr_len.max() / fs)],
+        "effective_shifts": None if plan is None else [float(plan.n_eff.min()), float(plan.n_eff.max())],
         "ci_level": opt.ci_level,
         "ci_method": opt.ci_method,
         "n_bootstrap": opt.n_bootstrap,

@@ -298,6 +298,17 @@ def _surrogate_sentence(params: dict, n_sur: int, cite: _Cites) -> str:
             + (f" Null hypothesis: {entry.null_hypothesis}" if entry else ""))
 
 
+def _shift_sentence(params: dict) -> str:
+    """How many effectively independent shifts the time-shift test had ("" otherwise)."""
+    corr, n_eff = params.get("shift_correlation_s"), params.get("effective_shifts")
+    if not corr or not n_eff:
+        return ""
+    rng = lambda v, f: f"{v[0]:{f}}" if f"{v[0]:{f}}" == f"{v[1]:{f}}" else f"{v[0]:{f}}–{v[1]:{f}}"  # noqa: E731
+    return (f"The PLV stayed alike over shifts closer than {rng(corr, '.3g')} s (the correlation length of "
+            f"its curve over shifts, measured on a decoupled copy of the pair), so the shifts held about "
+            f"{rng([round(n_eff[0]), round(n_eff[1])], 'd')} effectively independent values.")
+
+
 def _null_level_sentence(params: dict) -> str:
     """At which level (raw signal, phase, event) the surrogates were made ("" if unknown)."""
     nl = str(params.get("null_level") or "")
@@ -358,7 +369,7 @@ def _test_sentences(params: dict, table, cite: _Cites) -> list[str]:
     if n_sur <= 0:
         return ["No surrogates were drawn (n_surrogates = 0), so no significance test was "
                 "made: the values are descriptive only."]
-    return [_surrogate_sentence(params, n_sur, cite), _null_level_sentence(params),
+    return [_surrogate_sentence(params, n_sur, cite), _shift_sentence(params), _null_level_sentence(params),
             _pvalue_sentence(cite), _correction_sentence(params, table, cite),
             _decision_sentence(params)]
 

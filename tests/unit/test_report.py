@@ -540,6 +540,16 @@ def test_methods_cite_the_chosen_null_and_correction(surrogate, correction, cite
     assert "4:1 for the pair (heart, breath) means that heart makes 4 cycles while breath makes 1" in md
 
 
+def test_methods_state_the_effectively_independent_shifts():
+    r = _one_row_result(surrogate="time_shift")
+    md = methods_text(dataclasses.replace(r, params=r.params | {"shift_correlation_s": [12.04, 13.5],
+                                                                "effective_shifts": [21.6, 24.2]}))
+    assert ("The PLV stayed alike over shifts closer than 12–13.5 s (the correlation length of its curve over "
+            "shifts, measured on a decoupled copy of the pair), so the shifts held about 22–24 effectively "
+            "independent values.") in md
+    assert "effectively independent values" not in methods_text(_one_row_result(surrogate="iaaft"))
+
+
 def test_methods_describe_the_windows():
     md = methods_text(_toy_result())
     assert "in 6 windows of 40 to 120 s between 0 and 120 s" in md
