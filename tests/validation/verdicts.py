@@ -451,7 +451,7 @@ def _f3(r, c):
 
 
 def markdown(rows) -> list[str]:
-    """The verdict sections of docs/validation.md from the rows of all three parts."""
+    """The verdict sections of docs/validation.md from the rows of every part."""
     df = pd.DataFrame(rows)
     out = []
     cov = df[df.part == "coverage"] if "part" in df else df.iloc[:0]
@@ -586,31 +586,37 @@ def markdown(rows) -> list[str]:
                             "target: time_shift on weakly coupled, slipping pairs; IAAFT with 199 or more "
                             "surrogates is the stronger choice there.")
     var = df[df.part == "shift_variants"] if "part" in df else df.iloc[:0]
-    if len(var):
-        from .study import fpr_upper
-        out += ["", "### Does leaving out near shifts buy power?", "",
-                "Shift tests on the model phases (no phase estimation) of weakly coupled phase oscillators "
-                "(as above) and of independent ones; rate = share of runs with p <= 0.05; 'at equal level' = "
-                "the coupled runs' rejection rate at the p-value cut-off that rejects at most 5 % of the "
-                "independent runs (both independent cases pooled). 'Recalibrated' ranks the minimum-shift "
-                "p-value itself over every shift (the same function applied at every shift, so exact under "
-                "stationarity).", ""]
-        fams = list(dict.fromkeys(var.family))
-        out += ["| test | " + " | ".join(fams) + " | weakly coupled, at equal level |",
-                "|---|" + "---|" * (len(fams) + 1)]
-        for m, g in var.groupby("method", sort=False):
-            by = dict(zip(g.family, g.rate))
-            lev = g.rate_at_level.dropna()
-            out.append(f"| {m} | " + " | ".join(f"{by[f]:.3f}" for f in fams) +
-                       (f" | {lev.iloc[0]:.3f} |" if len(lev) else " | — |"))
-        ind = var[var.family.str.startswith("independent") & var.method.str.startswith("minimum shift")
-                  & ~var.method.str.contains("recalibrated")].rate
-        out += ["", "A minimum shift raises the weakly coupled pairs' detection rate only as far as it raises "
-                f"the independent pairs' ({ind.min():.3f}-{ind.max():.3f}; the 99 % band's upper edge is "
-                f"{fpr_upper(int(var.replicas.iloc[0])):.3f} at this size): at equal level it detects no more "
-                "than the test over every shift. Recalibrated, it is valid but weaker, because every shift on "
-                "the coupling's own peak of the shift curve scores as well as the data's alignment. The package "
-                "therefore keeps every shift."]
+    out += _shift_variant_lines(var) if len(var) else []
+    return out
+
+
+def _shift_variant_lines(var) -> list[str]:
+    """The shift-variant section of docs/validation.md (rows of the shift_variants part)."""
+    from .study import fpr_upper
+
+    out = ["", "### Does leaving out near shifts buy power?", "",
+            "Shift tests on the model phases (no phase estimation) of weakly coupled phase oscillators "
+            "(as above) and of independent ones; rate = share of runs with p <= 0.05; 'at equal level' = "
+            "the coupled runs' rejection rate at the p-value cut-off that rejects at most 5 % of the "
+            "independent runs (both independent cases pooled). 'Recalibrated' ranks the minimum-shift "
+            "p-value itself over every shift (the same function applied at every shift, so exact under "
+            "stationarity).", ""]
+    fams = list(dict.fromkeys(var.family))
+    out += ["| test | " + " | ".join(fams) + " | weakly coupled, at equal level |",
+            "|---|" + "---|" * (len(fams) + 1)]
+    for m, g in var.groupby("method", sort=False):
+        by = dict(zip(g.family, g.rate))
+        lev = g.rate_at_level.dropna()
+        out.append(f"| {m} | " + " | ".join(f"{by[f]:.3f}" for f in fams) +
+                   (f" | {lev.iloc[0]:.3f} |" if len(lev) else " | — |"))
+    ind = var[var.family.str.startswith("independent") & var.method.str.startswith("minimum shift")
+              & ~var.method.str.contains("recalibrated")].rate
+    out += ["", "A minimum shift raises the weakly coupled pairs' detection rate only as far as it raises "
+            f"the independent pairs' ({ind.min():.3f}-{ind.max():.3f}; the 99 % band's upper edge is "
+            f"{fpr_upper(int(var.replicas.iloc[0])):.3f} at this size): at equal level it detects no more "
+            "than the test over every shift. Recalibrated, it is valid but weaker, because every shift on "
+            "the coupling's own peak of the shift curve scores as well as the data's alignment. The package "
+            "therefore keeps every shift."]
     return out
 
 
