@@ -248,7 +248,7 @@ def analyze(
         design, recording=inputs.recording, time_s=pipe.time_s, fs=pipe.inputs.fs, observed=observed, test=test,
         ratios=chosen, intervals=intervals, preferred_phase=pref, n_cycles=ncyc,
         row_warnings=_row_warnings(design, diags, method_warn, ncyc, test, opt.n_surrogates, plan,
-                                   (moment1, moment2)),
+                                   (moment1, moment2), pipe.data, pipe.inputs.fs),
         surrogate=opt.surrogate, n_surrogates=0 if null is None else null.shape[0], alpha=opt.alpha, ci_level=opt.ci_level,
         ci_method=opt.ci_method, n_bootstrap=opt.n_bootstrap, null_level=level,
     )
@@ -312,17 +312,18 @@ def _method_warnings(method, pipe, options):
     return {n: w for n, w in out.items() if w}
 
 
-def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates, plan, moments):
+def _row_warnings(design, diags, method_warn, n_cycles, test, n_surrogates, plan, moments, data, fs):
     """Per row: the list of warnings (rhythms, ratio, cycles, surrogates, shift resolution,
-    two states of psi). ``moments``: the first two circular moments of psi per row."""
+    two states of psi). ``moments``: the first two circular moments of psi per row;
+    ``data``: the phases (at ``fs``)."""
     by_name = {d.signal: list(d.warnings) for d in diags}
     out = []
     for i, r in enumerate(design.rows):
         wl = []
         for n in r.members:
             wl += by_name.get(n, []) + method_warn.get(n, [])
-        if design.ratio_warning(r):
-            wl.append(design.ratio_warning(r))
+        if far := design.ratio_warning(r, data, fs):
+            wl.append(far)
         if n_cycles[i] < inf.MIN_CYCLES:
             wl.append(f"only {n_cycles[i]:.1f} cycles of the slower rhythm in this window")
         if test.few_surrogates[i]:

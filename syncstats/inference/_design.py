@@ -52,20 +52,25 @@ class Design:
     def rows(self):
         return self.family.rows
 
-    def ratio_warning(self, row) -> str:
-        """A warning when the row's ratio is far (> 20 %) from the measured frequency
-        ratio of the pair: the phase difference then rotates and no locking is possible
-        at that ratio over the whole span."""
+    def ratio_warning(self, row, data: dict, fs: float) -> str:
+        """A warning when the row's ratio is far (> 20 %) from the pair's frequency ratio
+        measured in the row's window (``data``: the phases, at ``fs``): the phase
+        difference then rotates and no locking is possible at that ratio there. (Measured
+        per window: a pair whose ratio changes over the record, 4:1 then 3:1, can lock at
+        a ratio far from the whole span's.)"""
         if row.kind != "pair":
             return ""
-        fa, fb = self.freqs[row.a], self.freqs[row.b]
+        fa, fb = (_cycles(ph) / (ph.shape[-1] * (ph.shape[0] if ph.ndim > 1 else 1) / fs)
+                  for ph in row.view(data).members)
         if not (fa > 0 and fb > 0):
             return ""
         measured = fa / fb
         if abs(row.p / row.q - measured) / measured <= 0.2:
             return ""
-        return (f"ratio {row.p}:{row.q} is far from the measured frequency ratio {measured:.3g} ({row.a} "
-                f"{fa:.3g} Hz, {row.b} {fb:.3g} Hz), so psi rotates and no lock is possible at it over the span")
+        span = row.w0 == 0 and row.w1 == data[row.a].shape[-1]
+        return (f"ratio {row.p}:{row.q} is far from the measured frequency ratio {measured:.3g}"
+                f"{'' if span else ' in this window'} ({row.a} {fa:.3g} Hz, {row.b} {fb:.3g} Hz), so psi rotates "
+                f"and no lock is possible at it {'over the span' if span else 'in this window'}")
 
     def describe(self, measure: str) -> str:
         """The family of one measure in words (the ``family`` column)."""

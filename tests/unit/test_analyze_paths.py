@@ -1,5 +1,6 @@
 """analyze paths beyond the defaults: trials, wavelet, protophase, twin, multivariate
 Fourier, user phases, executors, per-pair ratios, windows in the family."""
+import warnings
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
@@ -7,6 +8,7 @@ import pandas as pd
 import pytest
 
 import syncstats
+from syncstats import SyncstatsWarning
 
 from ..conftest import diffusing_pair
 
@@ -96,3 +98,22 @@ def test_bootstrap_ci_methods_and_preferred_phase_interval():
     lo, hi = r.preferred_phase_ci_low, r.preferred_phase_ci_high
     d = np.angle(np.exp(1j * (r.preferred_phase - lo))), np.angle(np.exp(1j * (hi - r.preferred_phase)))
     assert d[0] >= 0 and d[1] >= 0 and d[0] + d[1] < 1.0  # a tight interval around the mean angle
+
+
+def test_far_ratio_warning_uses_each_windows_own_frequency_ratio():
+    # a lock that changes ratio (4:1 for 100 s, then 3:1): over the span the ratio is 3.5,
+    # within 20 % of both, but in each window one of the two ratios rotates; the warning
+    # must name the window's ratio, never the locked one (closed form: ideal phases)
+    fs = 10.0
+    t = np.arange(0, 200, 1 / fs)
+    b = 2 * np.pi * 0.25 * t
+    a = np.where(t < 100, 4 * b, 3 * b + 2 * np.pi * 0.25 * 100)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", SyncstatsWarning)
+        tab = syncstats.analyze(None, fs=fs, phases={"a": a, "b": b}, ratios=[(4, 1), (3, 1)],
+                                windows=[(0, 100), (100, 200)], n_surrogates=0, n_bootstrap=0).table
+    far = {(r.ratio, r.window_start_s): r.warnings for r in tab.itertuples()}
+    assert far[("4:1", 0.0)] == far[("3:1", 100.0)] == ""
+    assert far[("4:1", 100.0)].startswith("ratio 4:1 is far from the measured frequency ratio 3 in this window")
+    assert far[("3:1", 0.0)].startswith("ratio 3:1 is far from the measured frequency ratio 4 in this window")
+    assert np.allclose(tab.loc[tab.warnings == "", "value"], 1.0)
