@@ -769,36 +769,16 @@ def retest(signals, fs=None, *, pair, ratio, claimed_test, window=None, n_surrog
     (a, b), (p, q), window, S, S_claim, alpha, options = _retest_iv(
         signals, fs, pair, ratio, claimed_test, window, n_surrogates, claimed_n_surrogates, surrogate,
         claimed_surrogate, alpha, options)
-    if isinstance(rng, np.random.Generator):
-        seq = np.random.SeedSequence(int(rng.integers(0, 2**63 - 1)))
-    else:
-        seq = np.random.SeedSequence(rng)
-    seeds = seq.spawn(2)  # calibrated run, claimed surrogate run
+    seeds = _retest_seeds(rng)  # calibrated run, claimed surrogate run
     options.setdefault("n_bootstrap", 0)
     common = dict(pairs=[(a, b)], ratios=[(p, q)], measures=("plv",), correction="none", alpha=alpha,
                   windows=[window] if window is not None else None, events=events, **options)
     res = analyze(signals, fs, surrogate=surrogate, n_surrogates=S, rng=np.random.default_rng(seeds[0]), **common)
     row = _pair_row(res.table, a, b)
-    value, n_cyc = float(row["value"]), float(row["n_cycles"])
-    t = np.asarray(res.time_s, dtype=float)
-    w0, w1 = float(row["window_start_s"]), float(row["window_end_s"])
-    n_samp = float(np.count_nonzero((t >= w0 - 1e-9) & (t <= w1 + 1e-9)))
+    value, n_cyc, n_samp = _row_counts(res, row)
 
-    rows = []
     if claimed_test in ("rayleigh_samples", "rayleigh_cycles"):
-        nn = n_samp if claimed_test == "rayleigh_samples" else n_cyc
-        lp = rayleigh_log_p(nn, value)
-        kind = "samples" if claimed_test == "rayleigh_samples" else "cycles"
-        expl = (
-            f"Rayleigh test over {nn:.0f} samples: it treats autocorrelated samples as independent, so "
-            "its p-value is far too small (a false positive is almost guaranteed for similar rhythms)."
-            if kind == "samples" else
-            f"Rayleigh test over {nn:.0f} cycles: one angle per cycle is roughly independent, but it ignores "
-            "what the filter and each rhythm's own regularity contribute."
-        )
-        rows.append(dict(role="claimed", test=f"rayleigh_{kind}", n=nn, n_kind=kind, value=value,
-                         null_mean=chance_plv(nn)[0], p_value=math.exp(lp), log10_p=lp / _LN10,
-                         significant=bool(lp <= math.log(alpha)), explanation=expl))
+        claimed = _claimed_rayleigh_row(claimed_test, n_samp, n_cyc, value, alpha)
     else:
         meth = claimed_surrogate or surrogate
         Sc = S_claim or S
@@ -807,34 +787,80 @@ def retest(signals, fs=None, *, pair, ratio, claimed_test, window=None, n_surrog
         else:
             resc = analyze(signals, fs, surrogate=meth, n_surrogates=Sc, rng=np.random.default_rng(seeds[1]),
                            **common)
-        rc = _pair_row(resc.table, a, b)
-        pv = float(rc["p_value"])
-        rows.append(dict(role="claimed", test=f"surrogate_{meth}", n=float(Sc), n_kind="surrogates",
-                         value=float(rc["value"]), null_mean=float(rc["null_mean"]), p_value=pv,
-                         log10_p=math.log10(pv), significant=bool(pv <= alpha + 1e-12),
-                         explanation=(f"Surrogate test as claimed ({meth}, {Sc} surrogates): its smallest possible "
-                                      f"p-value is {1 / (Sc + 1):.2g}.")))
-    pv = float(row["p_value"])
-    rows.append(dict(role="calibrated", test=f"surrogate_{surrogate}", n=float(S), n_kind="surrogates",
-                     value=value, null_mean=float(row["null_mean"]), p_value=pv, log10_p=math.log10(pv),
-                     significant=bool(pv <= alpha + 1e-12),
-                     explanation=(f"Surrogate test ({surrogate}, {S} surrogates through the same filter and phase "
-                                  f"pipeline): independent rhythms with the same spectra give PLV about "
-                                  f"{float(row['null_mean']):.3f}, and p = (1 + k)/(1 + S).")))
+        claimed = _claimed_surrogate_row(_pair_row(resc.table, a, b), meth, Sc, alpha)
+    rows = [claimed, _calibrated_row(row, value, surrogate, S, alpha)]
     table = pd.DataFrame(rows)
-    c, k = rows[0], rows[1]
-    if c["significant"] == k["significant"]:
-        diff = (f"Both tests {'reject' if k['significant'] else 'do not reject'} independence at alpha = {alpha:g}; "
-                f"the p-values differ by {abs(c['log10_p'] - k['log10_p']):.1f} decades.")
-    elif c["significant"]:
-        diff = (f"The claimed test rejects independence but the calibrated one does not: the PLV of {value:.3f} is "
-                f"within what independent rhythms reach (null mean {k['null_mean']:.3f}).")
-    else:
-        diff = ("The calibrated test rejects independence but the claimed one does not: the claimed test is less "
-                "powerful here (fewer effective angles or fewer surrogates).")
-    sentences = tuple(r["explanation"] + f" p = {r['p_value']:.3g}." for r in rows) + (diff,)
+    sentences = tuple(r["explanation"] + f" p = {r['p_value']:.3g}." for r in rows) + (_verdict(rows, value, alpha),)
     return RetestResult(table=table, sentences=sentences, analysis=res)
 
+
+def _retest_seeds(rng):
+    """Two independent seed sequences from ``rng``: the calibrated run's and the claimed surrogate run's."""
+    if isinstance(rng, np.random.Generator):
+        seq = np.random.SeedSequence(int(rng.integers(0, 2**63 - 1)))
+    else:
+        seq = np.random.SeedSequence(rng)
+    return seq.spawn(2)
+
+
+def _row_counts(res, row):
+    """The row's PLV, its cycles of the slower rhythm and the samples of its window."""
+    value, n_cyc = float(row["value"]), float(row["n_cycles"])
+    t = np.asarray(res.time_s, dtype=float)
+    w0, w1 = float(row["window_start_s"]), float(row["window_end_s"])
+    n_samp = float(np.count_nonzero((t >= w0 - 1e-9) & (t <= w1 + 1e-9)))
+    return value, n_cyc, n_samp
+
+
+def _claimed_rayleigh_row(claimed_test, n_samp, n_cyc, value, alpha):
+    """The claimed row for a Rayleigh test over every sample or over one angle per cycle."""
+    nn = n_samp if claimed_test == "rayleigh_samples" else n_cyc
+    lp = rayleigh_log_p(nn, value)
+    kind = "samples" if claimed_test == "rayleigh_samples" else "cycles"
+    expl = (
+        f"Rayleigh test over {nn:.0f} samples: it treats autocorrelated samples as independent, so "
+        "its p-value is far too small (a false positive is almost guaranteed for similar rhythms)."
+        if kind == "samples" else
+        f"Rayleigh test over {nn:.0f} cycles: one angle per cycle is roughly independent, but it ignores "
+        "what the filter and each rhythm's own regularity contribute."
+    )
+    return dict(role="claimed", test=f"rayleigh_{kind}", n=nn, n_kind=kind, value=value,
+                null_mean=chance_plv(nn)[0], p_value=math.exp(lp), log10_p=lp / _LN10,
+                significant=bool(lp <= math.log(alpha)), explanation=expl)
+
+
+def _claimed_surrogate_row(rc, meth, Sc, alpha):
+    """The claimed row for a surrogate test with the claim's method and count."""
+    pv = float(rc["p_value"])
+    return dict(role="claimed", test=f"surrogate_{meth}", n=float(Sc), n_kind="surrogates",
+                value=float(rc["value"]), null_mean=float(rc["null_mean"]), p_value=pv,
+                log10_p=math.log10(pv), significant=bool(pv <= alpha + 1e-12),
+                explanation=(f"Surrogate test as claimed ({meth}, {Sc} surrogates): its smallest possible "
+                             f"p-value is {1 / (Sc + 1):.2g}."))
+
+
+def _calibrated_row(row, value, surrogate, S, alpha):
+    """The calibrated row: the surrogate test through the same filter and phase pipeline."""
+    pv = float(row["p_value"])
+    return dict(role="calibrated", test=f"surrogate_{surrogate}", n=float(S), n_kind="surrogates",
+                value=value, null_mean=float(row["null_mean"]), p_value=pv, log10_p=math.log10(pv),
+                significant=bool(pv <= alpha + 1e-12),
+                explanation=(f"Surrogate test ({surrogate}, {S} surrogates through the same filter and phase "
+                             f"pipeline): independent rhythms with the same spectra give PLV about "
+                             f"{float(row['null_mean']):.3f}, and p = (1 + k)/(1 + S)."))
+
+
+def _verdict(rows, value, alpha):
+    """One sentence on whether the claimed and the calibrated test agree, and why not."""
+    c, k = rows[0], rows[1]
+    if c["significant"] == k["significant"]:
+        return (f"Both tests {'reject' if k['significant'] else 'do not reject'} independence at alpha = {alpha:g}; "
+                f"the p-values differ by {abs(c['log10_p'] - k['log10_p']):.1f} decades.")
+    if c["significant"]:
+        return (f"The claimed test rejects independence but the calibrated one does not: the PLV of {value:.3f} is "
+                f"within what independent rhythms reach (null mean {k['null_mean']:.3f}).")
+    return ("The calibrated test rejects independence but the claimed one does not: the claimed test is less "
+            "powerful here (fewer effective angles or fewer surrogates).")
 
 def _pair_row(table, a, b):
     sel = table[(table["signal_a"] == a) & (table["signal_b"] == b) & (table["measure"] == "plv")]

@@ -243,20 +243,8 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
         action="store_true")
 
 
-def _build_parser() -> argparse.ArgumentParser:
-    p = _Parser(
-        prog="syncstats",
-        description="Test whether recorded rhythms are phase-locked (1:1 or n:m) against surrogate data. "
-        "Research software, not a medical device.",
-    )
-    p.add_argument("--debug", action="store_true", help="show tracebacks (may stand anywhere on the line)")
-    p.add_argument("--version", action="version", version=f"syncstats {_package_version()}")
-    sub = p.add_subparsers(dest="command", parser_class=_Parser)
-
-    from .inference import CI_METHODS, CORRECTION_METHODS
-    from .measures import MEASURE_METHODS
-    from .nulls import SURROGATE_METHODS
-
+def _add_analyze_command(sub, registries):
+    """Add the ``analyze`` subcommand: one recording file and the analysis options."""
     a = sub.add_parser(
         "analyze",
         help="analyse a recording file",
@@ -265,8 +253,11 @@ def _build_parser() -> argparse.ArgumentParser:
         description="Phases, locking measures, surrogate test, corrections and intervals for one recording file.",
     )
     a.add_argument("input", help="CSV/TSV, Parquet, EDF/BDF, WFDB (.hea) or an event list (.txt)")
-    _add_analysis_options(a, MEASURE_METHODS, SURROGATE_METHODS, CORRECTION_METHODS, CI_METHODS)
+    _add_analysis_options(a, *registries)
 
+
+def _add_study_command(sub, registries):
+    """Add the ``study`` subcommand: a manifest, the analysis options and the across-subject options."""
     st = sub.add_parser(
         "study", help="analyse every recording of a study and test across subjects",
         description="Analyse each recording a manifest lists (recording, file, subject, group, condition), "
@@ -275,7 +266,7 @@ def _build_parser() -> argparse.ArgumentParser:
         "Exit 3 when some recordings failed and the rest were written.")
     st.add_argument("manifest", help="CSV with the columns recording, file, subject, group, condition "
                     "(optional: fs, signals, events, time_column, annotation)")
-    _add_analysis_options(st, MEASURE_METHODS, SURROGATE_METHODS, CORRECTION_METHODS, CI_METHODS)
+    _add_analysis_options(st, *registries)
     st.add_argument("--summary", choices=("effect", "z", "value"), default="effect", dest="measure_summary",
                     help="per-recording value tested across subjects (default effect = value - null mean)")
     st.add_argument("--second-level-correction", dest="second_level_correction", default="fdr_bh",
@@ -290,6 +281,9 @@ def _build_parser() -> argparse.ArgumentParser:
                     "the output folder)")
     st.add_argument("--no-cache", dest="no_cache", action="store_true", help="do not cache finished recordings")
 
+
+def _add_check_claim_command(sub):
+    """Add the ``check-claim`` subcommand: a reported claim's numbers, no data."""
     c = sub.add_parser("check-claim", help="check a reported synchrony claim from its numbers alone",
                        description="What a reported locking index and p-value can support, given how many cycles "
                        "it rests on and how much was searched (no data needed).")
@@ -315,6 +309,9 @@ def _build_parser() -> argparse.ArgumentParser:
     c.add_argument("--ci", help="reported confidence interval LOW,HIGH")
     c.add_argument("--out", help="write the table to this CSV file")
 
+
+def _add_power_command(sub):
+    """Add the ``power`` subcommand: the simulation grid of lengths and couplings."""
     w = sub.add_parser("power", help="power by simulation: how long to record, how strong a coupling is detectable",
                        description="Power of the surrogate test as a function of record length and coupling "
                        "strength, by simulating coupled rhythms with known truth.")
@@ -333,6 +330,9 @@ def _build_parser() -> argparse.ArgumentParser:
     w.add_argument("--seed", type=int, help="seed")
     w.add_argument("--out", help="output folder for power.csv and power.png (must not exist)")
 
+
+def _add_demo_command(sub):
+    """Add the ``demo`` subcommand: the bundled demo study."""
     d = sub.add_parser("demo", help="run the whole job on the bundled demo study",
                        description="Analyse the bundled demo study (simulated) and write the four output files.")
     d.add_argument("--out", required=True, help="output folder")
@@ -342,6 +342,9 @@ def _build_parser() -> argparse.ArgumentParser:
     d.add_argument("--quiet", action="store_true", help="no progress bar and no summary line")
     d.add_argument("--json", action="store_true", help="print a machine-readable summary on stdout")
 
+
+def _add_simulate_command(sub):
+    """Add the ``simulate`` subcommand: one simulated scenario written to files."""
     s = sub.add_parser("simulate", help="write a simulated scenario with known truth to files",
                        epilog=EXAMPLES_SIMULATE, formatter_class=argparse.RawDescriptionHelpFormatter,
                        description="Simulate coupled or independent rhythms and write recording.csv, events and truth.json.")
@@ -358,6 +361,29 @@ def _build_parser() -> argparse.ArgumentParser:
     s.add_argument("--seed", type=int, default=0)
     s.add_argument("--out", required=True, help="output folder")
     s.add_argument("--overwrite", action="store_true")
+
+
+def _build_parser() -> argparse.ArgumentParser:
+    """The ``syncstats`` command line: global flags, then one subparser per subcommand."""
+    p = _Parser(
+        prog="syncstats",
+        description="Test whether recorded rhythms are phase-locked (1:1 or n:m) against surrogate data. "
+        "Research software, not a medical device.",
+    )
+    p.add_argument("--debug", action="store_true", help="show tracebacks (may stand anywhere on the line)")
+    p.add_argument("--version", action="version", version=f"syncstats {_package_version()}")
+    sub = p.add_subparsers(dest="command", parser_class=_Parser)
+
+    from .inference import CI_METHODS, CORRECTION_METHODS
+    from .measures import MEASURE_METHODS
+    from .nulls import SURROGATE_METHODS
+    registries = (MEASURE_METHODS, SURROGATE_METHODS, CORRECTION_METHODS, CI_METHODS)
+    _add_analyze_command(sub, registries)
+    _add_study_command(sub, registries)
+    _add_check_claim_command(sub)
+    _add_power_command(sub)
+    _add_demo_command(sub)
+    _add_simulate_command(sub)
     return p
 
 

@@ -910,79 +910,119 @@ def second_level_tests(table, *, summary="effect", correction="fdr_bh", alpha=0.
     Preferred phases: ``pingouin.circ_rayleigh`` on the subjects' circular-mean phases.
     Each approach is one family, corrected with ``statsmodels.stats.multitest.multipletests``.
     """
+    _check_summary(table, summary)
+    base = as_seed_sequence(rng)
+    subj = _subject_values(table, summary)
+    groups, conds, group_sets = _group_sets(table)
+    rows = []
+    for unit, u in subj.groupby(_UNIT, sort=False, dropna=False):
+        rows += _unit_rows(dict(zip(_UNIT, unit)), u, summary, groups, conds, group_sets, repeated_measures,
+                           ci_level)
+    out = pd.DataFrame(rows, columns=[c for c in SECOND_LEVEL_COLUMNS if c not in
+                                      ("p_adjusted", "correction", "family", "significant")] + ["boot_data"])
+    out = _bootstrap_rows(out, base, n_bootstrap, ci_level)
+    out = _correct(out, correction, alpha, n_units=subj.groupby(_UNIT, dropna=False).ngroups if len(subj) else 0)
+    return _second_level_frame(out), subj.drop(columns=["recording_values"]), _descriptives(subj)
+
+
+def _check_summary(table, summary):
+    """Refuse an unknown summary or one the per-recording table holds no finite value of."""
     if summary not in SUMMARIES:
         raise SyncstatsInputError(f"summary must be one of {', '.join(SUMMARIES)}; got {summary!r}.")
     if summary not in table.columns or not np.isfinite(table[summary].to_numpy(float)).any():
         raise SyncstatsInputError(
             f"the per-recording '{summary}' is empty (no surrogates were drawn); set n_surrogates above 0 "
             f"or test the 'value' summary.")
-    base = as_seed_sequence(rng)
-    subj = _subject_values(table, summary)
+
+
+def _group_sets(table):
+    """Groups and conditions in table order, and the group sets tested (each group, then all pooled)."""
     groups = list(dict.fromkeys(table["group"]))
     conds = list(dict.fromkeys(table["condition"]))
     group_sets = [(g, [g]) for g in groups] + ([(ALL_GROUPS, groups)] if len(groups) > 1 else [])
     if ALL_GROUPS in groups:
         raise SyncstatsInputError(f"group name '{ALL_GROUPS}' is reserved for pooled rows; rename that group.")
+    return groups, conds, group_sets
+
+
+def _unit_rows(ukey, u, summary, groups, conds, group_sets, repeated_measures, ci_level):
+    """All second-level rows of one unit: per cell, between conditions, between groups."""
+    in_group = {gname: np.isin(u["group"].to_numpy(object), gl) for gname, gl in group_sets}
+    in_cond = {c: u["condition"].to_numpy(object) == c for c in conds}
+    head = ukey | {"summary": summary}
+    return (_cell_rows(head, u, group_sets, conds, in_group, in_cond, repeated_measures, ci_level)
+            + _condition_rows(head, u, group_sets, conds, in_group, in_cond, ci_level)
+            + _group_rows(head, u, groups, conds, in_group, in_cond, ci_level))
+
+
+def _cell_rows(head, u, group_sets, conds, in_group, in_cond, repeated_measures, ci_level):
+    """One-sample tests (unless the summary is the raw value) and phase consistency per group x condition."""
+    val, nrec, phs = u["value"].to_numpy(float), u["n_recordings"].to_numpy(int), u["preferred_phase"].to_numpy(float)
     rows = []
-    for unit, u in subj.groupby(_UNIT, sort=False, dropna=False):
-        ukey = dict(zip(_UNIT, unit))
-        grp, cnd = u["group"].to_numpy(object), u["condition"].to_numpy(object)
-        sub, val = u["subject"].to_numpy(object), u["value"].to_numpy(float)
-        nrec, phs = u["n_recordings"].to_numpy(int), u["preferred_phase"].to_numpy(float)
-        in_group = {gname: np.isin(grp, gl) for gname, gl in group_sets}
-        in_cond = {c: cnd == c for c in conds}
-        # one-sample and phase consistency per cell
-        for gname, _ in group_sets:
-            for cond in conds:
-                m = in_group[gname] & in_cond[cond]
-                if not m.any():
-                    continue
-                y = val[m]
-                common = ukey | {"summary": summary, "group": gname, "condition": cond, "n_subjects": len(y),
-                                 "n_recordings": int(nrec[m].sum())}
-                if summary != "value":
-                    if repeated_measures == "mixed_model" and bool((nrec[m] > 1).any()):
-                        rows.append(common | _mixed_one_sample(u[m], ci_level))
-                    else:
-                        rows.append(common | _one_sample_t(y, ci_level))
-                    rows.append(common | _one_sample_rank(y, ci_level))
-                rows.append(common | _rayleigh(phs[m]))
-        # paired between conditions (subjects with both conditions)
-        for gname, _ in group_sets:
-            for a in range(len(conds)):
-                for b in range(a + 1, len(conds)):
-                    ca, cb = conds[a], conds[b]
-                    ma, mb = in_group[gname] & in_cond[ca], in_group[gname] & in_cond[cb]
-                    if not ma.any() or not mb.any():
-                        continue
-                    ia = dict(zip(sub[ma], np.flatnonzero(ma)))
-                    ib = dict(zip(sub[mb], np.flatnonzero(mb)))
-                    both = [s for s in ia if s in ib]
-                    ja, jb = [ia[s] for s in both], [ib[s] for s in both]
-                    xa, xb = val[ja], val[jb]
-                    common = ukey | {"summary": summary, "group": gname, "condition": f"{cb} vs {ca}",
-                                     "contrast": f"{cb} − {ca}", "n_subjects": len(both), "n_subjects_a": len(both),
-                                     "n_subjects_b": len(both), "n_recordings": int(nrec[ja].sum() + nrec[jb].sum())}
-                    rows.append(common | _paired_t(xb, xa, ci_level))
-                    rows.append(common | _paired_rank(xb, xa, ci_level))
-        # between groups within a condition
+    for gname, _ in group_sets:
         for cond in conds:
-            for a in range(len(groups)):
-                for b in range(a + 1, len(groups)):
-                    ga, gb = groups[a], groups[b]
-                    ma, mb = in_group[ga] & in_cond[cond], in_group[gb] & in_cond[cond]
-                    if not ma.any() or not mb.any():
-                        continue
-                    common = ukey | {"summary": summary, "group": f"{gb} vs {ga}", "condition": cond,
-                                     "contrast": f"{gb} − {ga}", "n_subjects": int(ma.sum() + mb.sum()),
-                                     "n_subjects_a": int(ma.sum()), "n_subjects_b": int(mb.sum()),
-                                     "n_recordings": int(nrec[ma].sum() + nrec[mb].sum())}
-                    rows.append(common | _welch(val[mb], val[ma], ci_level))
-                    rows.append(common | _mwu(val[mb], val[ma], ci_level))
-    out = pd.DataFrame(rows, columns=[c for c in SECOND_LEVEL_COLUMNS if c not in
-                                      ("p_adjusted", "correction", "family", "significant")] + ["boot_data"])
-    out = _bootstrap_rows(out, base, n_bootstrap, ci_level)
-    out = _correct(out, correction, alpha, n_units=subj.groupby(_UNIT, dropna=False).ngroups if len(subj) else 0)
+            m = in_group[gname] & in_cond[cond]
+            if not m.any():
+                continue
+            y = val[m]
+            common = head | {"group": gname, "condition": cond, "n_subjects": len(y),
+                             "n_recordings": int(nrec[m].sum())}
+            if head["summary"] != "value":
+                if repeated_measures == "mixed_model" and bool((nrec[m] > 1).any()):
+                    rows.append(common | _mixed_one_sample(u[m], ci_level))
+                else:
+                    rows.append(common | _one_sample_t(y, ci_level))
+                rows.append(common | _one_sample_rank(y, ci_level))
+            rows.append(common | _rayleigh(phs[m]))
+    return rows
+
+
+def _condition_rows(head, u, group_sets, conds, in_group, in_cond, ci_level):
+    """Paired tests between each two conditions, on the subjects that have both, per group set."""
+    sub, val, nrec = u["subject"].to_numpy(object), u["value"].to_numpy(float), u["n_recordings"].to_numpy(int)
+    rows = []
+    for gname, _ in group_sets:
+        for a in range(len(conds)):
+            for b in range(a + 1, len(conds)):
+                ca, cb = conds[a], conds[b]
+                ma, mb = in_group[gname] & in_cond[ca], in_group[gname] & in_cond[cb]
+                if not ma.any() or not mb.any():
+                    continue
+                ia = dict(zip(sub[ma], np.flatnonzero(ma)))
+                ib = dict(zip(sub[mb], np.flatnonzero(mb)))
+                both = [s for s in ia if s in ib]
+                ja, jb = [ia[s] for s in both], [ib[s] for s in both]
+                xa, xb = val[ja], val[jb]
+                common = head | {"group": gname, "condition": f"{cb} vs {ca}",
+                                 "contrast": f"{cb} − {ca}", "n_subjects": len(both), "n_subjects_a": len(both),
+                                 "n_subjects_b": len(both), "n_recordings": int(nrec[ja].sum() + nrec[jb].sum())}
+                rows.append(common | _paired_t(xb, xa, ci_level))
+                rows.append(common | _paired_rank(xb, xa, ci_level))
+    return rows
+
+
+def _group_rows(head, u, groups, conds, in_group, in_cond, ci_level):
+    """Two-sample tests between each two groups within a condition."""
+    val, nrec = u["value"].to_numpy(float), u["n_recordings"].to_numpy(int)
+    rows = []
+    for cond in conds:
+        for a in range(len(groups)):
+            for b in range(a + 1, len(groups)):
+                ga, gb = groups[a], groups[b]
+                ma, mb = in_group[ga] & in_cond[cond], in_group[gb] & in_cond[cond]
+                if not ma.any() or not mb.any():
+                    continue
+                common = head | {"group": f"{gb} vs {ga}", "condition": cond,
+                                 "contrast": f"{gb} − {ga}", "n_subjects": int(ma.sum() + mb.sum()),
+                                 "n_subjects_a": int(ma.sum()), "n_subjects_b": int(mb.sum()),
+                                 "n_recordings": int(nrec[ma].sum() + nrec[mb].sum())}
+                rows.append(common | _welch(val[mb], val[ma], ci_level))
+                rows.append(common | _mwu(val[mb], val[ma], ci_level))
+    return rows
+
+
+def _second_level_frame(out):
+    """The tests in column order with their published dtypes (counts Int64, text str, significant boolean)."""
     out = out[list(SECOND_LEVEL_COLUMNS)]
     for c in ("n_subjects", "n_subjects_a", "n_subjects_b", "n_recordings"):
         out[c] = out[c].astype("Int64")
@@ -990,8 +1030,7 @@ def second_level_tests(table, *, summary="effect", correction="fdr_bh", alpha=0.
               "condition", "contrast", "aggregation", "ci_method", "effect_size_kind", "correction", "family", "note"):
         out[c] = out[c].astype(object).where(out[c].notna(), "").astype(str)
     out["significant"] = out["significant"].astype("boolean")
-    return out.reset_index(drop=True), subj.drop(columns=["recording_values"]), _descriptives(subj)
-
+    return out.reset_index(drop=True)
 
 def _descriptives(subj):
     rows = []

@@ -279,6 +279,32 @@ def _direction_matrix(direction, K):
 def _plan(kind, coupled, ratio, duration, fs, freq, detuning, coupling, direction, noise,
           measurement_noise, options, func):
     """Everything but the random draws: frequencies, coupling, truth, description."""
+    d, p, q, freq, detuning, direction, noise, meas = _checked_plan_args(
+        kind, coupled, ratio, freq, detuning, direction, noise, measurement_noise, func)
+    options = dict(options or {})
+    # frequencies: the faster unit runs at ``freq`` Hz (before detuning)
+    fb = freq * q / p if p >= q else freq
+    fa = fb * p / q * (1.0 + detuning)
+    model_params, options, extra = _kind_options(kind, options, fa, func)
+    units = d["coupling_units"]
+    names = ("heart", "breath") if kind == "beats" else ("A", "B")
+    K, how = _coupling_strength(kind, d, coupled, coupling, model_params, fa, fb, p, q, direction, detuning,
+                                extra, func)
+    C = _direction_matrix(direction, K)
+    truth = _truth(kind, K, C, model_params, fa, fb, p, q, extra)
+    truth.update(coupling_units=units, coupling_choice=how, tested_ratio=(p, q))
+    description = _describe(kind, names, fa, fb, p, q, K, direction, units, truth,
+                            noise, meas, options)
+    params = {"kind": kind, "coupled": bool(coupled), "ratio": (p, q),
+              "duration": float(duration), "fs": float(fs), "freqs_hz": (fa, fb),
+              "freq": freq, "detuning": detuning, "direction": direction,
+              "coupling_strength": K, "noise": noise, "measurement_noise": meas,
+              "options": dict(options)}
+    return names, fa, fb, p, q, C, truth, description, params
+
+
+def _checked_plan_args(kind, coupled, ratio, freq, detuning, direction, noise, measurement_noise, func):
+    """Check the scalar arguments in order and fill the kind's defaults for those left None."""
     check_choice(kind, "kind", SCENARIO_KINDS, func)
     if not isinstance(coupled, (bool, np.bool_)):
         _fail(f"{func}: parameter coupled must be True or False, got {coupled!r}; pass "
@@ -298,10 +324,11 @@ def _plan(kind, coupled, ratio, duration, fs, freq, detuning, coupling, directio
     noise = d["noise"] if noise is None else check_real(noise, "noise", func, low=0)
     meas = check_real(d["measurement_noise"] if measurement_noise is None
                       else measurement_noise, "measurement_noise", func, low=0)
-    options = dict(options or {})
-    # frequencies: the faster unit runs at ``freq`` Hz (before detuning)
-    fb = freq * q / p if p >= q else freq
-    fa = fb * p / q * (1.0 + detuning)
+    return d, p, q, freq, detuning, direction, noise, meas
+
+
+def _kind_options(kind, options, fa, func):
+    """The kind's options checked and completed: model parameters, options, and the extra ones as a sorted tuple."""
     model = _MODEL_OF_KIND.get(kind)
     if model is not None:
         mp = _model_params(model, func, **options)
@@ -324,9 +351,11 @@ def _plan(kind, coupled, ratio, duration, fs, freq, detuning, coupling, directio
         if kind == "damped_noise":
             options.setdefault("damping", 0.05)
     extra = tuple(sorted((k_, float(v)) for k_, v in options.items())) if model is None else ()
-    units = d["coupling_units"]
-    names = ("heart", "breath") if kind == "beats" else ("A", "B")
-    # ---- coupling strength
+    return model_params, options, extra
+
+
+def _coupling_strength(kind, d, coupled, coupling, model_params, fa, fb, p, q, direction, detuning, extra, func):
+    """The coupling strength K and how it was chosen (given, Adler rule, kind default or calibrated ladder)."""
     how = ""
     if not coupled:
         if coupling is not None and coupling != 0:
@@ -347,45 +376,37 @@ def _plan(kind, coupled, ratio, duration, fs, freq, detuning, coupling, directio
     else:
         K, how = _ladder_strength(kind, model_params, fa, fb, p, q, direction, detuning,
                                   extra, func)
-    C = _direction_matrix(direction, K)
-    # ---- truth
+    return K, how
+
+
+def _truth(kind, K, C, model_params, fa, fb, p, q, extra):
+    """The known truth of the scenario: locked or not, at which ratio, and by which rule that is known."""
     adler = None
     if kind in ("phase", "quasi_periodic", "stuart_landau", "beats"):
         adler = adler_prediction((fa, fb), C, ratio=(p, q))
     if kind == "damped_noise":
-        truth = {"locked": False, "ratio": None, "coupled": bool(K > 0),
-                 "dependent": bool(K > 0), "method": "linear_not_self_sustained",
-                 "detail": {"note": "noise-driven damped oscillators have no limit cycle, "
-                                    "so they cannot phase-lock; linear coupling makes "
-                                    "them correlated (coherent), which tests based on "
-                                    "independent surrogates will detect and "
-                                    "multivariate (cross-spectrum keeping) surrogates "
-                                    "should not."}}
-    elif K == 0:
-        truth = {"locked": False, "ratio": None, "coupled": False, "dependent": False,
-                 "method": "uncoupled",
-                 "detail": {"note": "independent units (zero coupling, independent "
-                                    "noise)", "frequency_ratio": fa / fb}}
-    elif kind in ("phase", "quasi_periodic"):
-        truth = {"locked": adler["locked"], "ratio": (p, q) if adler["locked"] else None,
-                 "coupled": True, "dependent": True, "method": "adler",
-                 "detail": {"adler": adler}}
-    else:
-        lab = _label_run(kind, model_params, fa, fb, p, q, float(C[0, 1]), float(C[1, 0]),
-                         extra)
-        truth = {"locked": lab["locked"], "ratio": (p, q) if lab["locked"] else None,
-                 "coupled": True, "dependent": True, "method": "noise_free_run",
-                 "detail": {"run": dict(lab), "adler_phase_reduction": adler}}
-    truth.update(coupling_units=units, coupling_choice=how, tested_ratio=(p, q))
-    description = _describe(kind, names, fa, fb, p, q, K, direction, units, truth,
-                            noise, meas, options)
-    params = {"kind": kind, "coupled": bool(coupled), "ratio": (p, q),
-              "duration": float(duration), "fs": float(fs), "freqs_hz": (fa, fb),
-              "freq": freq, "detuning": detuning, "direction": direction,
-              "coupling_strength": K, "noise": noise, "measurement_noise": meas,
-              "options": dict(options)}
-    return names, fa, fb, p, q, C, truth, description, params
-
+        return {"locked": False, "ratio": None, "coupled": bool(K > 0),
+                "dependent": bool(K > 0), "method": "linear_not_self_sustained",
+                "detail": {"note": "noise-driven damped oscillators have no limit cycle, "
+                                   "so they cannot phase-lock; linear coupling makes "
+                                   "them correlated (coherent), which tests based on "
+                                   "independent surrogates will detect and "
+                                   "multivariate (cross-spectrum keeping) surrogates "
+                                   "should not."}}
+    if K == 0:
+        return {"locked": False, "ratio": None, "coupled": False, "dependent": False,
+                "method": "uncoupled",
+                "detail": {"note": "independent units (zero coupling, independent "
+                                   "noise)", "frequency_ratio": fa / fb}}
+    if kind in ("phase", "quasi_periodic"):
+        return {"locked": adler["locked"], "ratio": (p, q) if adler["locked"] else None,
+                "coupled": True, "dependent": True, "method": "adler",
+                "detail": {"adler": adler}}
+    lab = _label_run(kind, model_params, fa, fb, p, q, float(C[0, 1]), float(C[1, 0]),
+                     extra)
+    return {"locked": lab["locked"], "ratio": (p, q) if lab["locked"] else None,
+            "coupled": True, "dependent": True, "method": "noise_free_run",
+            "detail": {"run": dict(lab), "adler_phase_reduction": adler}}
 
 def _describe(kind, names, fa, fb, p, q, K, direction, units, truth, noise, meas, opts):
     what = {
