@@ -166,8 +166,9 @@ def analyze(
         Called with the number of surrogates finished after each batch.
     epochs : bool or mapping, optional
         Also find synchronization epochs of every pair x ratio over the whole span and
-        test their total locked time against the same surrogate method
-        (:func:`syncstats.locking_epochs`); True uses the defaults, a mapping sets
+        test their total locked time against the same surrogate method (time_shift in place
+        of fourier, aaft or iaaft, with which that test exceeds its level;
+        :func:`syncstats.locking_epochs`); True uses the defaults, a mapping sets
         ``tolerance``, ``window_cycles``, ``min_cycles``, ``min_s``. The result's
         ``.epochs`` holds them; ``save`` writes epochs.csv and epochs_summary.csv.
     trial_locking : bool, default False

@@ -213,7 +213,8 @@ def _add_analysis_options(a, measures, surrogates, corrections, ci_methods):
     from .epochs import EPOCH_DEFAULTS as ed
 
     opt("--epochs", "also find synchronization epochs (stretches in which psi stays within the tolerance) and "
-        "test their total locked time against the surrogates; writes epochs.csv and epochs_summary.csv",
+        "test their total locked time against the surrogates (time_shift in place of fourier, aaft or iaaft); "
+        "writes epochs.csv and epochs_summary.csv",
         action="store_const", const=True)
     opt("--epoch-tolerance", f"largest circular SD of psi within a window, radians (default {ed['tolerance']:.4g}, "
         "i.e. pi/4); implies --epochs", dest="epoch_tolerance")

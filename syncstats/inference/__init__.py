@@ -9,8 +9,8 @@ from ._bootstrap import CI_METHODS, Interval, RowIntervals, angle_ci, block_ci, 
 from ._circular import critical_plv, rayleigh_test
 from ._design import MIN_CYCLES, Design, make_design
 from ._family import Family, Row
-from ._nulls import (NullJob, ShiftPlan, check_method, exact_shift_null, method_options,
-                     null_distribution, shift_plan)
+from ._nulls import (SHIFT_IN_PLACE_OF, NullJob, ShiftPlan, check_method, exact_shift_null, method_options,
+                     null_distribution, shift_in_place, shift_plan)
 from ._pvalues import (CORRECTION_METHODS, CORRECTIONS, Correction, adjust, max_stat_adjust, min_surrogates,
                        surrogate_pvalue)
 from ._ratios import (MAX_DRIFT_PER_CYCLE, RatioChoice, choose_ratios, drift_per_cycle, lock_evidence,
@@ -48,6 +48,8 @@ __all__ = [
     "make_design",
     "max_stat_adjust",
     "method_options",
+    "shift_in_place",
+    "SHIFT_IN_PLACE_OF",
     "min_surrogates",
     "null_distribution",
     "rayleigh_test",

@@ -26,7 +26,7 @@ from ..run import batch_bounds, map_batches
 from ._family import Family
 
 __all__ = ["NullJob", "null_distribution", "check_method", "method_options", "batch_for_budget",
-           "DEFAULT_MEMORY_MB", "ShiftPlan", "shift_plan", "exact_shift_null"]
+           "DEFAULT_MEMORY_MB", "ShiftPlan", "shift_plan", "exact_shift_null", "SHIFT_IN_PLACE_OF", "shift_in_place"]
 
 #: default working-memory budget of one batch of surrogates, MB
 DEFAULT_MEMORY_MB = 256.0
@@ -178,6 +178,30 @@ def method_options(method: str, pipeline, design, n_surrogates: int, min_shift_s
     elif all_shifts:
         raise SyncstatsInputError("all_shifts applies to surrogate 'time_shift' only; leave it unset.")
     return opts, notes, plan
+
+
+#: univariate phase-randomising nulls: they test independence, as the time shift does, but
+#: their surrogates' amplitude fluctuations make each rhythm's phase wander more than a
+#: self-sustained rhythm's, so statistics built on long aligned stretches of psi (total locked
+#: time, cluster strength) are lower under them than in independent data, and those tests
+#: rejected too often (DEVELOPERS.md, "Phase-randomising nulls and long alignments")
+SHIFT_IN_PLACE_OF = ("fourier", "aaft", "iaaft")
+
+
+def shift_in_place(surrogate: str, pipeline, design, n_surrogates: int, *, min_shift_s=None, options=None,
+                   what: str, measured: str) -> tuple[str, dict, list]:
+    """The null a test of long alignments runs with: ``(method, options, notes)``.
+
+    ``surrogate`` with its ``options``, except :data:`SHIFT_IN_PLACE_OF`, which become
+    time_shift (same null hypothesis) with its options for ``pipeline`` and ``design``, and
+    a note naming ``what`` was tested and the ``measured`` false-positive rates.
+    """
+    if surrogate not in SHIFT_IN_PLACE_OF or not n_surrogates:
+        return surrogate, dict(options or {}), []
+    opts, _, _ = method_options("time_shift", pipeline, design, n_surrogates, min_shift_s, all_shifts=False)
+    return "time_shift", opts, [
+        f"{what}: tested with time_shift surrogates instead of {surrogate}: with {surrogate} this test rejected "
+        f"independent rhythms too often ({measured}); both test independence"]
 
 
 def exact_shift_null(plan: ShiftPlan, design, span_n: int) -> np.ndarray:

@@ -273,3 +273,25 @@ def test_results_of_several_recordings_are_stacked_and_keep_their_families():
     assert both.summary.recording.tolist() == ["r1", "r2"] and len(both.epochs) == 2 * len(a.epochs)
     assert any("corrected within that recording" in n for n in both.notes)
     assert combine_epochs([None]) is None and combine_epochs([a]) is a
+
+
+def test_phase_randomising_nulls_are_replaced_by_the_time_shift_for_epochs():
+    # With iaaft the total-locked-time test rejected an uncoupled pair near 4:1 at 0.135
+    # (R = 400; tests/validation/test_epochs_calibration.py), so epochs run fourier / aaft /
+    # iaaft as time_shift and say so; the main rows keep the run's surrogate.
+    import warnings
+
+    sig = _pair()
+    kw = dict(n_surrogates=19, rng=5, n_bootstrap=0, min_s=20)
+    asked = locking_epochs(sig, fs=FS, surrogate="iaaft", **kw)
+    shift = locking_epochs(sig, fs=FS, surrogate="time_shift", **kw)
+    pd.testing.assert_frame_equal(asked.summary, shift.summary)
+    assert set(asked.summary.surrogate) == {"time_shift"}
+    assert "epochs: tested with time_shift surrogates instead of iaaft" in asked.notes[0]
+    assert not any("instead of" in n for n in shift.notes)
+    assert locking_epochs(sig, fs=FS, **kw).summary.equals(shift.summary)  # the default
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", syncstats.SyncstatsWarning)
+        res = syncstats.analyze(sig, fs=FS, n_surrogates=19, rng=5, n_bootstrap=0, epochs=dict(min_s=20))
+    assert set(res.table.surrogate) == {"iaaft"} and set(res.epochs.summary.surrogate) == {"time_shift"}
+    assert any("instead of iaaft" in n for n in res.notes)
