@@ -65,7 +65,7 @@ SEED_TAG = 7102
 #: phase-randomising nulls: the cluster test was not calibrated with them (see the notes)
 _FOURIER_FAMILY = ("fourier", "aaft", "iaaft", "multivariate_fourier")
 #: the cluster test's false-positive rates with iaaft and with the time shift (:func:`cluster_null`)
-MEASURED = ("0.157 at alpha 0.05 on six independent noisy phase oscillators, 60 s, R = 300; time_shift 0.047")
+MEASURED = "0.157 at alpha 0.05 on six independent noisy phase oscillators, 60 s, R = 300; time_shift 0.047"
 #: at most this many points of the order-parameter curve
 MAX_POINTS = 1000
 
