@@ -40,6 +40,7 @@ import concurrent.futures as cf
 import contextlib
 import hashlib
 import inspect
+import itertools
 import json
 import math
 import os
@@ -982,22 +983,20 @@ def _condition_rows(head, u, group_sets, conds, in_group, in_cond, ci_level):
     sub, val, nrec = u["subject"].to_numpy(object), u["value"].to_numpy(float), u["n_recordings"].to_numpy(int)
     rows = []
     for gname, _ in group_sets:
-        for a in range(len(conds)):
-            for b in range(a + 1, len(conds)):
-                ca, cb = conds[a], conds[b]
-                ma, mb = in_group[gname] & in_cond[ca], in_group[gname] & in_cond[cb]
-                if not ma.any() or not mb.any():
-                    continue
-                ia = dict(zip(sub[ma], np.flatnonzero(ma)))
-                ib = dict(zip(sub[mb], np.flatnonzero(mb)))
-                both = [s for s in ia if s in ib]
-                ja, jb = [ia[s] for s in both], [ib[s] for s in both]
-                xa, xb = val[ja], val[jb]
-                common = head | {"group": gname, "condition": f"{cb} vs {ca}",
-                                 "contrast": f"{cb} − {ca}", "n_subjects": len(both), "n_subjects_a": len(both),
-                                 "n_subjects_b": len(both), "n_recordings": int(nrec[ja].sum() + nrec[jb].sum())}
-                rows.append(common | _paired_t(xb, xa, ci_level))
-                rows.append(common | _paired_rank(xb, xa, ci_level))
+        for ca, cb in itertools.combinations(conds, 2):
+            ma, mb = in_group[gname] & in_cond[ca], in_group[gname] & in_cond[cb]
+            if not ma.any() or not mb.any():
+                continue
+            ia = dict(zip(sub[ma], np.flatnonzero(ma)))
+            ib = dict(zip(sub[mb], np.flatnonzero(mb)))
+            both = [s for s in ia if s in ib]
+            ja, jb = [ia[s] for s in both], [ib[s] for s in both]
+            xa, xb = val[ja], val[jb]
+            common = head | {"group": gname, "condition": f"{cb} vs {ca}",
+                             "contrast": f"{cb} − {ca}", "n_subjects": len(both), "n_subjects_a": len(both),
+                             "n_subjects_b": len(both), "n_recordings": int(nrec[ja].sum() + nrec[jb].sum())}
+            rows.append(common | _paired_t(xb, xa, ci_level))
+            rows.append(common | _paired_rank(xb, xa, ci_level))
     return rows
 
 
@@ -1006,18 +1005,16 @@ def _group_rows(head, u, groups, conds, in_group, in_cond, ci_level):
     val, nrec = u["value"].to_numpy(float), u["n_recordings"].to_numpy(int)
     rows = []
     for cond in conds:
-        for a in range(len(groups)):
-            for b in range(a + 1, len(groups)):
-                ga, gb = groups[a], groups[b]
-                ma, mb = in_group[ga] & in_cond[cond], in_group[gb] & in_cond[cond]
-                if not ma.any() or not mb.any():
-                    continue
-                common = head | {"group": f"{gb} vs {ga}", "condition": cond,
-                                 "contrast": f"{gb} − {ga}", "n_subjects": int(ma.sum() + mb.sum()),
-                                 "n_subjects_a": int(ma.sum()), "n_subjects_b": int(mb.sum()),
-                                 "n_recordings": int(nrec[ma].sum() + nrec[mb].sum())}
-                rows.append(common | _welch(val[mb], val[ma], ci_level))
-                rows.append(common | _mwu(val[mb], val[ma], ci_level))
+        for ga, gb in itertools.combinations(groups, 2):
+            ma, mb = in_group[ga] & in_cond[cond], in_group[gb] & in_cond[cond]
+            if not ma.any() or not mb.any():
+                continue
+            common = head | {"group": f"{gb} vs {ga}", "condition": cond,
+                             "contrast": f"{gb} − {ga}", "n_subjects": int(ma.sum() + mb.sum()),
+                             "n_subjects_a": int(ma.sum()), "n_subjects_b": int(mb.sum()),
+                             "n_recordings": int(nrec[ma].sum() + nrec[mb].sum())}
+            rows.append(common | _welch(val[mb], val[ma], ci_level))
+            rows.append(common | _mwu(val[mb], val[ma], ci_level))
     return rows
 
 
